@@ -1,0 +1,22 @@
+"""netgen: coupled heat-and-electricity networks from .etn text: solve them, export SPICE netlists."""
+from __future__ import annotations
+
+from pathlib import Path
+
+from .design import Design
+from .errors import NetgenError
+from .results import Results
+
+__version__ = "0.1.0"
+
+
+def load(path_or_text, overrides: dict[str, str] | None = None) -> Design:
+    """Read a design from a path or from .etn text (anything containing a newline is text)."""
+    from .language import load as _load, load_text
+
+    if isinstance(path_or_text, Path) or ("\n" not in str(path_or_text) and Path(str(path_or_text)).suffix == ".etn"):
+        return _load(path_or_text, overrides)
+    return load_text(str(path_or_text), "<text>", overrides)
+
+
+__all__ = ["load", "Design", "Results", "NetgenError", "__version__"]

@@ -1,0 +1,530 @@
+"""Syntax tree to Design: parameters, units, nodes and their domains, elements, analyses, signals."""
+from __future__ import annotations
+
+import difflib
+import math
+from pathlib import Path
+
+from lark import Token, Tree
+from lark.exceptions import UnexpectedCharacters, UnexpectedEOF, UnexpectedInput, UnexpectedToken
+
+from .. import units as U
+from ..design import (
+    ELECTRICAL, THERMAL, Audit, Capacitor, CurrentSource, Design, Expectation, Fixed, Heat,
+    Inductor, Link, Loc, Node, Resistor, Signal, Steady, Switch, Tempco, Thermoelectric,
+    Transient, VoltageSource, Modes,
+)
+from ..errors import NetgenError, NetgenErrors
+from ..expr import Const, Wave
+from .grammar import parser
+from .quantities import ExprReader, SIGNAL_KINDS, Typed, read_quantity
+
+MAX_ERRORS = 20
+
+_TOKEN_WORDS = {
+    "_NL": "end of line", "NAME": "a name", "QUANTITY": "a number", "LPAR": "`(`", "RPAR": "`)`",
+    "LBRACE": "`{`", "RBRACE": "`}`", "COMMA": "`,`", "EQUAL": "`=`", "CMP": "a comparison",
+    "STRING": 'a quoted title', "$END": "end of file",
+}
+
+STATEMENTS = (
+    "design let mass fixed link heat ground resistor capacitor inductor source switch "
+    "thermoelectric steady transient modes record expect audit"
+).split()
+
+
+def load(path, overrides: dict[str, str] | None = None) -> Design:
+    """Read a .etn file into a checked Design. Raises NetgenError with a location."""
+    p = Path(path)
+    try:
+        raw = p.read_bytes()
+    except OSError as e:
+        raise NetgenError(f"cannot read `{path}`: {e.strerror or e}") from None
+    try:
+        text = raw.decode("utf-8")
+    except UnicodeDecodeError as e:
+        line = raw[: e.start].count(b"\n") + 1
+        col = e.start - (raw.rfind(b"\n", 0, e.start) + 1) + 1
+        raise NetgenError("the file is not valid UTF-8", Loc(str(path), line, col), "save it as UTF-8") from None
+    return load_text(text, str(path), overrides)
+
+
+def load_text(text: str, filename: str = "<text>", overrides: dict[str, str] | None = None) -> Design:
+    """Read .etn text into a checked Design."""
+    from ..topology import check_design  # the structural checks run on the finished model
+
+    design = Elaborator(text, filename, overrides or {}).run()
+    check_design(design)
+    return design
+
+
+class Elaborator:
+    def __init__(self, text: str, filename: str, overrides: dict[str, str]):
+        self.text = text
+        self.lines = text.splitlines()
+        self.file = filename
+        self.overrides = dict(overrides)
+        self.used_overrides: set[str] = set()
+        self.params: dict[str, Typed] = {}
+        self.param_locs: dict[str, Loc] = {}
+        self.design = Design(file=filename)
+        self.errors: list[NetgenError] = []
+        self.node_first: dict[str, Loc] = {}
+        self.element_locs: dict[str, Loc] = {}
+        self.pending_signals: list[tuple] = []
+
+    # ---- locations ---------------------------------------------------------------
+    def loc(self, item) -> Loc:
+        if isinstance(item, Token):
+            line, col = item.line, item.column
+        elif isinstance(item, Tree) and not item.meta.empty:
+            line, col = item.meta.line, item.meta.column
+        else:
+            line, col = 1, 1
+        text = self.lines[line - 1] if 0 < line <= len(self.lines) else ""
+        return Loc(self.file, line, col, text)
+
+    def err(self, item, message, hint=None) -> NetgenError:
+        return NetgenError(message, self.loc(item), hint)
+
+    # ---- driver ------------------------------------------------------------------
+    def run(self) -> Design:
+        tree = self.parse(self.text)
+        for stmt in tree.children:
+            if not isinstance(stmt, Tree):
+                continue
+            try:
+                getattr(self, "st_" + stmt.data)(stmt)
+            except NetgenError as e:
+                self.errors.append(e)
+                if len(self.errors) >= MAX_ERRORS:
+                    break
+        if not self.errors:
+            self.finish_signals()
+        unused = set(self.overrides) - self.used_overrides
+        for name in sorted(unused):
+            close = difflib.get_close_matches(name, list(self.params), n=1)
+            self.errors.append(NetgenError(
+                f"--set {name}: the design has no parameter `{name}`",
+                None, f"did you mean `{close[0]}`?" if close else "only names defined with `let` can be set",
+            ))
+        if self.errors:
+            raise NetgenErrors(self.errors) if len(self.errors) > 1 else self.errors[0]
+        d = self.design
+        d.params = {k: (v.value, U.unit_name(v.dim)) for k, v in self.params.items() if v.constant}
+        return d
+
+    def parse(self, text: str, start: str = "start"):
+        try:
+            return parser().parse(text, start=start)
+        except UnexpectedInput as e:
+            raise self.syntax_error(e) from None
+
+    def syntax_error(self, e: UnexpectedInput) -> NetgenError:
+        line, col = getattr(e, "line", 1), getattr(e, "column", 1)
+        if line is None or line < 1:
+            line, col = max(1, len(self.lines)), len(self.lines[-1]) + 1 if self.lines else 1
+        text = self.lines[line - 1] if 0 < line <= len(self.lines) else ""
+        loc = Loc(self.file, line, col, text)
+        if isinstance(e, UnexpectedToken):
+            tok = e.token
+            expected = sorted({_TOKEN_WORDS.get(t, f"`{t.lower()}`") for t in e.expected if not t.startswith("__")})
+            if tok.type == "$END":
+                what = "the end of the file"
+            elif tok.type == "_NL":
+                what = "the end of the line"
+            else:
+                what = f"`{tok}`"
+            hint = None
+            prev = text[: col - 1].rstrip()
+            if tok.type == "NAME" and prev and (prev[-1].isdigit()):
+                hint = _unit_hint(str(tok))
+            elif col == 1 or not prev:
+                close = difflib.get_close_matches(str(tok), STATEMENTS, n=1)
+                hint = (f"did you mean `{close[0]}`?" if close else
+                        "a statement starts with one of: " + " ".join(STATEMENTS))
+            elif len(expected) <= 8:
+                hint = "expected " + ", ".join(expected)
+            return NetgenError(f"unexpected {what}", loc, hint)
+        if isinstance(e, UnexpectedCharacters):
+            ch = text[col - 1] if 0 < col <= len(text) else "?"
+            hint = None
+            prev = text[: col - 1].rstrip()
+            if prev and prev[-1].isdigit() or (ch.isalpha()):
+                word = ""
+                for c in text[col - 1:]:
+                    if c.isspace():
+                        break
+                    word += c
+                hint = _unit_hint(word) if prev and prev[-1].isdigit() else None
+            return NetgenError(f"unexpected character `{ch}`", loc, hint)
+        if isinstance(e, UnexpectedEOF):
+            return NetgenError("the file ends in the middle of a statement", loc, "is a `}` or `)` missing?")
+        return NetgenError(str(e).splitlines()[0], loc)
+
+    # ---- values ------------------------------------------------------------------
+    def reader(self, signals_ok=False) -> ExprReader:
+        return ExprReader(self.params, self.loc, signals_ok, self.signal_dim)
+
+    def typed(self, tree, signals_ok=False) -> Typed:
+        r = self.reader(signals_ok)
+        t = r.read(tree)
+        if r.celsius_seen:
+            self.design.celsius = True
+        return t
+
+    def const(self, tree, dims, what: str, positive=False, nonneg=False) -> float:
+        """A constant of one of `dims` (a Dim or a tuple of Dims)."""
+        t = self.typed(tree)
+        dims = dims if isinstance(dims, tuple) else (dims,)
+        self.need_dim(tree, t, dims, what)
+        if not isinstance(t.expr, Const):
+            raise self.err(tree, f"{what} must be constant", "only `fixed`, `heat` and `source` values may vary in time")
+        v = t.value
+        if not math.isfinite(v):
+            raise self.err(tree, f"{what} is not a finite number")
+        if positive and v <= 0:
+            raise self.err(tree, f"{what} must be positive, not {v:g} {U.unit_name(t.dim)}")
+        if nonneg and v < 0:
+            raise self.err(tree, f"{what} may not be negative")
+        return v
+
+    def need_dim(self, tree, t: Typed, dims, what):
+        if t.dim in dims:
+            return
+        want = " or ".join(U.unit_name(d) for d in dims)
+        if t.dim.dimensionless:
+            raise self.err(tree, f"{what} needs a unit: {want}", f"write e.g. `1 {U.unit_name(dims[0])}`")
+        raise self.err(tree, f"{what} needs a unit of {want}, not {U.unit_name(t.dim)}")
+
+    def wave(self, tree, dims, what) -> tuple[Wave, U.Dim]:
+        t = self.typed(tree)
+        dims = dims if isinstance(dims, tuple) else (dims,)
+        self.need_dim(tree, t, dims, what)
+        return Wave(t.expr, U.unit_name(t.dim)), t.dim
+
+    # ---- nodes -------------------------------------------------------------------
+    def node(self, tok, domain: str) -> str:
+        name = str(tok)
+        d = self.design
+        if name in d.nodes:
+            n = d.nodes[name]
+            if n.domain != domain:
+                raise self.err(
+                    tok, f"node `{name}` is {n.domain} (first used at line {n.loc.line}) but is used here as {domain}",
+                    "a node belongs to one domain; use another name for this one",
+                )
+        else:
+            d.nodes[name] = Node(name, domain, self.loc(tok))
+        return name
+
+    def element_name(self, tok) -> str:
+        name = str(tok)
+        if name in self.element_locs:
+            raise self.err(tok, f"element `{name}` is already defined at line {self.element_locs[name].line}",
+                           "element names must be unique")
+        self.element_locs[name] = self.loc(tok)
+        return name
+
+    def attrs(self, tree, allowed: tuple[str, ...], stmt: str) -> dict:
+        out: dict = {}
+        if tree is None:
+            return out
+        for a in tree.children:
+            key = a.data[len("attr_"):]
+            if key not in allowed:
+                hint = ("`" + "`, `".join(allowed) + "`") if allowed else "none"
+                raise self.err(a, f"`{key}` is not an attribute of `{stmt}`", f"attributes of `{stmt}`: {hint}")
+            if key in out:
+                raise self.err(a, f"`{key}` is given twice")
+            out[key] = a
+        return out
+
+    # ---- statements --------------------------------------------------------------
+    def st_design(self, t):
+        self.design.title = str(t.children[0])[1:-1]
+
+    def st_let(self, t):
+        name_tok, value = t.children
+        name = str(name_tok)
+        if name in self.params:
+            raise self.err(name_tok, f"parameter `{name}` is already defined at line {self.param_locs[name].line}")
+        if name in ("time", "pi") or name in SIGNAL_KINDS and False:
+            raise self.err(name_tok, f"`{name}` is a reserved name")
+        if U.is_unit_word(name):
+            raise self.err(name_tok, f"`{name}` is a unit symbol and cannot name a parameter", "choose another name")
+        typed = self.typed(value)
+        if name in self.overrides:
+            self.used_overrides.add(name)
+            text = self.overrides[name]
+            try:
+                otree = parser().parse(text, start="expr")
+            except UnexpectedInput:
+                raise NetgenError(f"--set {name}={text}: cannot read the value", None,
+                                  "write a number with its unit, e.g. --set I_drive=1.5A") from None
+            try:
+                otyped = ExprReader(self.params, lambda _t: Loc("--set", 1, 1, text)).read(otree)
+            except NetgenError as e:
+                raise NetgenError(f"--set {name}={text}: {e.message}", None, e.hint) from None
+            if otyped.dim != typed.dim:
+                raise NetgenError(
+                    f"--set {name}={text}: `{name}` is in {U.unit_name(typed.dim)}, the value given is in "
+                    f"{U.unit_name(otyped.dim)}", None)
+            typed = otyped
+        self.params[name] = typed
+        self.param_locs[name] = self.loc(name_tok)
+
+    def st_mass(self, t):
+        name_tok, cap, attrs = t.children
+        name = self.node(name_tok, THERMAL)
+        n = self.design.nodes[name]
+        if n.capacity is not None:
+            raise self.err(name_tok, f"mass `{name}` is already defined at line {n.loc.line}")
+        n.capacity = self.const(cap, U.HEAT_CAPACITY, "a heat capacity", positive=True)
+        n.loc = self.loc(name_tok)
+        a = self.attrs(attrs, ("start",), "mass")
+        if "start" in a:
+            n.start = self.const(a["start"].children[0], U.TEMPERATURE, "a start temperature", positive=True)
+
+    def st_fixed(self, t):
+        name_tok, value = t.children
+        name = self.node(name_tok, THERMAL)
+        wave, _ = self.wave(value, U.TEMPERATURE, "a reservoir temperature")
+        if any(isinstance(e, Fixed) and e.node == name for e in self.design.elements):
+            raise self.err(name_tok, f"node `{name}` is already fixed")
+        self.design.elements.append(Fixed(name, self.loc(name_tok), node=name, temperature=wave))
+
+    def st_link(self, t):
+        name_tok, a, b, value = t.children
+        name = self.element_name(name_tok)
+        na, nb = self.node(a, THERMAL), self.node(b, THERMAL)
+        typed = self.typed(value)
+        self.need_dim(value, typed, (U.THERMAL_CONDUCTANCE, U.THERMAL_RESISTANCE), "a link")
+        v = self.const(value, typed.dim, "a link value", positive=True)
+        g = v if typed.dim == U.THERMAL_CONDUCTANCE else 1.0 / v
+        self.design.elements.append(Link(name, self.loc(name_tok), a=na, b=nb, conductance=g))
+
+    def st_heat(self, t):
+        name_tok, node_tok, value = t.children
+        name = self.element_name(name_tok)
+        node = self.node(node_tok, THERMAL)
+        wave, _ = self.wave(value, U.POWER, "a heat input")
+        self.design.elements.append(Heat(name, self.loc(name_tok), node=node, power=wave))
+
+    def st_ground(self, t):
+        tok = t.children[0]
+        name = self.node(tok, ELECTRICAL)
+        self.design.grounds.setdefault(name, self.loc(tok))
+
+    def _two(self, t):
+        name_tok, a, b = t.children[:3]
+        name = self.element_name(name_tok)
+        return name, self.node(a, ELECTRICAL), self.node(b, ELECTRICAL), self.loc(name_tok)
+
+    def st_resistor(self, t):
+        name, a, b, loc = self._two(t)
+        r = self.const(t.children[3], U.RESISTANCE, "a resistance", positive=True)
+        at = self.attrs(t.children[4], ("heats", "tempco"), "resistor")
+        heats = self.node(at["heats"].children[0], THERMAL) if "heats" in at else None
+        tc = None
+        if "tempco" in at:
+            alpha_t, node_tok, ref_t = at["tempco"].children
+            alpha = self.const(alpha_t, U.PER_KELVIN, "a temperature coefficient")
+            tc = Tempco(alpha, self.node(node_tok, THERMAL),
+                        self.const(ref_t, U.TEMPERATURE, "a reference temperature", positive=True))
+        self.design.elements.append(Resistor(name, loc, a=a, b=b, resistance=r, heats=heats, tempco=tc))
+
+    def st_capacitor(self, t):
+        name, a, b, loc = self._two(t)
+        c = self.const(t.children[3], U.CAPACITANCE, "a capacitance", positive=True)
+        at = self.attrs(t.children[4], ("start",), "capacitor")
+        start = self.const(at["start"].children[0], U.VOLTAGE, "a start voltage") if "start" in at else None
+        self.design.elements.append(Capacitor(name, loc, a=a, b=b, capacitance=c, start=start))
+
+    def st_inductor(self, t):
+        name, a, b, loc = self._two(t)
+        ind = self.const(t.children[3], U.INDUCTANCE, "an inductance", positive=True)
+        at = self.attrs(t.children[4], ("start",), "inductor")
+        start = self.const(at["start"].children[0], U.CURRENT, "a start current") if "start" in at else None
+        self.design.elements.append(Inductor(name, loc, a=a, b=b, inductance=ind, start=start))
+
+    def st_source(self, t):
+        name, a, b, loc = self._two(t)
+        wave, dim = self.wave(t.children[3], (U.VOLTAGE, U.CURRENT), "a source")
+        cls = VoltageSource if dim == U.VOLTAGE else CurrentSource
+        self.design.elements.append(cls(name, loc, a=a, b=b, value=wave))
+
+    def st_switch(self, t):
+        name, a, b, loc = self._two(t)
+        at = self.attrs(t.children[3], ("closed", "on", "off"), "switch")
+        if "closed" not in at:
+            raise self.err(t, f"switch `{name}` needs `closed T1 .. T2`", "e.g. `closed 1 s .. 2 s, 5 s .. 6 s`")
+        intervals = []
+        for iv in at["closed"].children:
+            t1 = self.const(iv.children[0], U.TIME, "a switch time", nonneg=True)
+            t2 = self.const(iv.children[1], U.TIME, "a switch time", nonneg=True)
+            if t2 <= t1:
+                raise self.err(iv, f"the interval {t1:g} s .. {t2:g} s is empty or reversed",
+                               "write the earlier time first")
+            intervals.append((t1, t2))
+        intervals.sort()
+        for (x1, x2), (y1, y2) in zip(intervals, intervals[1:]):
+            if y1 < x2:
+                raise self.err(at["closed"], "the closed intervals of a switch overlap")
+        r_on = self.const(at["on"].children[0], U.RESISTANCE, "an on resistance", positive=True) if "on" in at else 1e-3
+        r_off = self.const(at["off"].children[0], U.RESISTANCE, "an off resistance", positive=True) if "off" in at else 1e9
+        self.design.elements.append(Switch(name, loc, a=a, b=b, intervals=intervals, r_on=r_on, r_off=r_off))
+
+    def st_thermoelectric(self, t):
+        name_tok, attrs = t.children
+        name = self.element_name(name_tok)
+        at = self.attrs(attrs, ("pins", "sides", "seebeck", "resistance", "conductance"), "thermoelectric")
+        for key, example in (("pins", "pins P N"), ("sides", "sides A B")):
+            if key not in at:
+                raise self.err(name_tok, f"thermoelectric `{name}` needs `{example}`")
+        missing = [k for k in ("seebeck", "resistance", "conductance") if k not in at]
+        if missing:
+            raise self.err(name_tok, f"thermoelectric `{name}` needs {', '.join('`' + m + '`' for m in missing)}",
+                           "give the module's lumped values: seebeck S  resistance R  conductance K")
+        p, n = (self.node(x, ELECTRICAL) for x in at["pins"].children)
+        a, b = (self.node(x, THERMAL) for x in at["sides"].children)
+        s = self.const(at["seebeck"].children[0], U.SEEBECK, "a Seebeck coefficient")
+        r = self.const(at["resistance"].children[0], U.RESISTANCE, "a module resistance", positive=True)
+        k = self.const(at["conductance"].children[0], U.THERMAL_CONDUCTANCE, "a module conductance", positive=True)
+        self.design.elements.append(Thermoelectric(
+            name, self.loc(name_tok), p=p, n=n, a=a, b=b, seebeck=s, resistance=r, conductance=k))
+
+    def st_steady(self, t):
+        if self.design.steady:
+            raise self.err(t, "`steady` is given twice")
+        self.design.analyses.append(Steady(self.loc(t)))
+
+    def st_modes(self, t):
+        self.design.analyses.append(Modes(self.loc(t)))
+
+    def st_transient(self, t):
+        if self.design.transient:
+            raise self.err(t, "`transient` is given twice")
+        until = self.const(t.children[0], U.TIME, "the end time", positive=True)
+        at = self.attrs(t.children[1], ("step", "tolerance"), "transient")
+        step = self.const(at["step"].children[0], U.TIME, "a step", positive=True) if "step" in at else None
+        if step is not None and step > until:
+            raise self.err(at["step"], f"the step ({step:g} s) is longer than the run ({until:g} s)")
+        tol = self.const(at["tolerance"].children[0], U.NONE, "a tolerance", positive=True) if "tolerance" in at else None
+        self.design.analyses.append(Transient(until, self.loc(t), step, tol))
+
+    def st_record(self, t):
+        for s in t.children:
+            kind = str(s.children[0])
+            names = tuple(str(c) for c in s.children[1:] if c is not None)
+            if kind not in SIGNAL_KINDS:
+                raise self.err(s, f"unknown signal `{kind}(...)`", "signals are T(node) V(node) I(elem) Q(elem) P(elem)")
+            sig = Signal(kind, names, self.loc(s))
+            self.design.records.append(sig)
+            self.pending_signals.append((kind, names, s))
+
+    def _expect_common(self, t, expr_t, cmp_tok, limit_t, opts, agg, at_time=None):
+        typed = self.typed(expr_t, signals_ok=True)
+        lim = self.typed(limit_t)
+        if not isinstance(lim.expr, Const):
+            raise self.err(limit_t, "the limit must be constant")
+        if lim.dim != typed.dim:
+            raise self.err(limit_t, f"the limit is in {U.unit_name(lim.dim)} but the signal is in "
+                           f"{U.unit_name(typed.dim)}")
+        within_t, b1, b2 = opts.children
+        within = None
+        if within_t is not None:
+            w = self.typed(within_t)
+            if w.dim != typed.dim and not w.dim.dimensionless:
+                raise self.err(within_t, f"`within` needs {U.unit_name(typed.dim)} or a fraction such as `1 %`")
+            within = w.value if w.dim == typed.dim else -w.value  # negative marks a relative tolerance
+        cmp = str(cmp_tok)
+        if cmp == "=" and within is None:
+            raise self.err(cmp_tok, "`=` needs `within TOL`", "e.g. `= 4 degC within 0.5 K`")
+        between = None
+        if b1 is not None:
+            between = (self.const(b1, U.TIME, "a time"), self.const(b2, U.TIME, "a time"))
+            if between[1] < between[0]:
+                raise self.err(b1, "`between` needs the earlier time first")
+        text = self.loc(t).text.strip()
+        self.design.expectations.append(Expectation(
+            agg, typed.expr, cmp, lim.value, U.unit_name(typed.dim), text, self.loc(t),
+            within=within, between=between, at_time=at_time, celsius=lim.celsius))
+
+    def st_expect_agg(self, t):
+        agg, expr_t, cmp_tok, limit_t, opts = t.children
+        self._expect_common(t, expr_t, cmp_tok, limit_t, opts, str(agg))
+
+    def st_expect_at(self, t):
+        expr_t, time_t, cmp_tok, limit_t, opts = t.children
+        at_time = self.const(time_t, U.TIME, "a time", nonneg=True)
+        self._expect_common(t, expr_t, cmp_tok, limit_t, opts, "at", at_time)
+
+    def st_audit(self, t):
+        kind_tok, within_t = t.children
+        within = self.const(within_t, U.NONE, "an audit tolerance", positive=True) if within_t is not None else None
+        self.design.audits.append(Audit(str(kind_tok), self.loc(t), within))
+
+    # ---- signals -----------------------------------------------------------------
+    def signal_dim(self, kind, names, tree) -> U.Dim:
+        self.pending_signals.append((kind, names, tree))
+        return {"T": U.TEMPERATURE, "V": U.VOLTAGE, "I": U.CURRENT, "Q": U.POWER, "P": U.POWER}[kind]
+
+    def finish_signals(self):
+        """Signals may name things defined later in the file, so they are checked at the end."""
+        for kind, names, tree in self.pending_signals:
+            try:
+                check_signal(self.design, kind, names)
+            except ValueError as e:
+                msg, hint = e.args if len(e.args) == 2 else (e.args[0], None)
+                self.errors.append(self.err(tree, msg, hint))
+
+
+def check_signal(d: Design, kind: str, names: tuple[str, ...]) -> None:
+    """Raise ValueError(message, hint) when a signal does not fit the design."""
+    from ..design import Element  # noqa: F401
+
+    def nearest(name, pool):
+        close = difflib.get_close_matches(name, list(pool), n=1)
+        return f"did you mean `{close[0]}`?" if close else None
+
+    if kind in ("T", "V"):
+        want = THERMAL if kind == "T" else ELECTRICAL
+        if len(names) != (1 if kind == "T" else len(names)) or not 1 <= len(names) <= 2:
+            raise ValueError(f"`{kind}(...)` takes {'one node' if kind == 'T' else 'one or two nodes'}", None)
+        for n in names:
+            node = d.nodes.get(n)
+            if node is None:
+                raise ValueError(f"unknown node `{n}`", nearest(n, d.nodes))
+            if node.domain != want:
+                other = "T" if want == ELECTRICAL else "V"
+                raise ValueError(f"`{n}` is a {node.domain} node", f"write {other}({n})")
+        return
+    if len(names) != 1:
+        raise ValueError(f"`{kind}(...)` takes one name", None)
+    name = names[0]
+    if kind == "Q" and "." in name:
+        base, side = name.rsplit(".", 1)
+        e = d.element(base)
+        if isinstance(e, Thermoelectric) and side in ("a", "b"):
+            return
+        if isinstance(e, Thermoelectric):
+            raise ValueError(f"a thermoelectric side is `.a` or `.b`, not `.{side}`", None)
+    e = d.element(name)
+    if e is None:
+        raise ValueError(f"unknown element `{name}`", nearest(name, [x.name for x in d.elements]))
+    electrical = (Resistor, Capacitor, Inductor, VoltageSource, CurrentSource, Switch, Thermoelectric)
+    if kind in ("I", "P") and not isinstance(e, electrical):
+        raise ValueError(f"`{kind}({name})` needs an electrical element; `{name}` is thermal",
+                         f"write Q({name}) for its heat flow")
+    if kind == "Q" and not isinstance(e, (Link, Heat, Fixed)):
+        hint = f"write Q({name}.a) or Q({name}.b)" if isinstance(e, Thermoelectric) else f"write I({name}) or P({name})"
+        raise ValueError(f"`Q({name})` needs a link, a heat input or a reservoir", hint)
+
+
+def _unit_hint(word: str) -> str:
+    try:
+        U.parse_unit(word)
+    except U.UnitError as e:
+        return e.hint or f"`{word}` is not a unit"
+    return "units are written right after the number"

@@ -1,0 +1,245 @@
+"""Typed expressions: syntax-tree expressions to SI Expr trees with their dimensions checked."""
+from __future__ import annotations
+
+import difflib
+import math
+import re
+from dataclasses import dataclass
+from fractions import Fraction
+
+from lark import Token, Tree
+
+from .. import units as U
+from ..errors import NetgenError
+from ..expr import Binary, Const, Expr, Func, Shape, SignalRef, Time, Unary, evaluate
+
+_NUM = re.compile(r"^((?:[0-9]+(?:\.[0-9]+)?|\.[0-9]+)(?:[eE][+-]?[0-9]+)?)[ \t]*(.*)$")
+
+FUNCTIONS = ("sqrt", "exp", "log", "abs", "min", "max", "sin", "cos")
+SHAPES = ("step", "ramp", "pulse", "sine", "table")
+SIGNAL_KINDS = ("T", "V", "I", "Q", "P")
+RESERVED = ("time", "pi")
+
+
+@dataclass
+class Typed:
+    """An expression with its dimension; `celsius` marks a bare `degC` literal."""
+
+    expr: Expr
+    dim: U.Dim
+    celsius: bool = False
+
+    @property
+    def constant(self) -> bool:
+        return isinstance(self.expr, Const)
+
+    @property
+    def value(self) -> float:
+        return self.expr.v  # only for constants
+
+
+def read_quantity(text: str) -> tuple[float, U.Dim, bool]:
+    """`0.45 J/K` → (0.45, J/K, False); `24 degC` → (297.15, K, True)."""
+    m = _NUM.match(text)
+    num, unit = float(m.group(1)), m.group(2).strip()
+    if not unit:
+        return num, U.NONE, False
+    factor, dim, celsius = U.parse_unit(unit)
+    if celsius:
+        return num + U.ZERO_CELSIUS, dim, True
+    return num * factor, dim, False
+
+
+class ExprReader:
+    """Turns expression trees into Typed values. `loc_of(tree)` gives a Loc for messages."""
+
+    def __init__(self, params: dict, loc_of, signals_ok: bool = False, signal_dim=None):
+        self.params = params  # name -> Typed (constant)
+        self.loc_of = loc_of
+        self.signals_ok = signals_ok
+        self.signal_dim = signal_dim  # callback(kind, args, tree) -> Dim
+        self.celsius_seen = False
+
+    def err(self, tree, message, hint=None):
+        return NetgenError(message, self.loc_of(tree), hint)
+
+    def read(self, tree) -> Typed:
+        t = self._read(tree)
+        if not isinstance(t.expr, Const) and not t.expr.uses_time and not t.expr.uses_signals:
+            t = Typed(Const(float(evaluate(t.expr))), t.dim, t.celsius)
+        return t
+
+    def _read(self, tree) -> Typed:
+        if isinstance(tree, Token):
+            raise self.err(tree, f"unexpected `{tree}`")
+        kind = tree.data
+        if kind == "number":
+            tok = tree.children[0]
+            try:
+                v, dim, celsius = read_quantity(str(tok))
+            except U.UnitError as e:
+                raise self.err(tree, str(e), e.hint) from None
+            self.celsius_seen |= celsius
+            return Typed(Const(v), dim, celsius)
+        if kind == "name":
+            return self._name(tree)
+        if kind == "neg":
+            a = self._read(tree.children[0])
+            return Typed(_fold(Unary("neg", a.expr)), a.dim)
+        if kind == "unary":  # unary plus keeps its operand (lark inlines `?unary`)
+            return self._read(tree.children[0])
+        if kind in ("add", "sub"):
+            a, b = self._read(tree.children[0]), self._read(tree.children[1])
+            if a.dim != b.dim:
+                raise self.err(
+                    tree, f"cannot {'add' if kind == 'add' else 'subtract'} {U.unit_name(b.dim)} "
+                    f"{'to' if kind == 'add' else 'from'} {U.unit_name(a.dim)}",
+                    "both sides of + and - need the same unit",
+                )
+            return Typed(_fold(Binary("+" if kind == "add" else "-", a.expr, b.expr)), a.dim)
+        if kind in ("mul", "div"):
+            a, b = self._read(tree.children[0]), self._read(tree.children[1])
+            if kind == "div" and isinstance(b.expr, Const) and b.expr.v == 0:
+                raise self.err(tree.children[1], "division by zero")
+            dim = a.dim * b.dim if kind == "mul" else a.dim / b.dim
+            return Typed(_fold(Binary("*" if kind == "mul" else "/", a.expr, b.expr)), dim)
+        if kind == "pow":
+            a, b = self._read(tree.children[0]), self._read(tree.children[1])
+            if not b.dim.dimensionless:
+                raise self.err(tree.children[1], f"an exponent must be a plain number, not {U.unit_name(b.dim)}")
+            if a.dim.dimensionless:
+                return Typed(_fold(Binary("^", a.expr, b.expr)), a.dim)
+            if not isinstance(b.expr, Const):
+                raise self.err(tree.children[1], "the exponent of a quantity with a unit must be constant")
+            p = Fraction(b.expr.v).limit_denominator(12)
+            if abs(float(p) - b.expr.v) > 1e-12:
+                raise self.err(tree.children[1], "the exponent of a quantity with a unit must be a simple fraction")
+            return Typed(_fold(Binary("^", a.expr, b.expr)), a.dim**p)
+        if kind == "call":
+            return self._call(tree)
+        if kind == "expr":
+            return self._read(tree.children[0])
+        raise self.err(tree, f"unexpected `{kind}` in an expression")
+
+    def _name(self, tree) -> Typed:
+        name = str(tree.children[0])
+        if name == "time":
+            return Typed(Time(), U.TIME)
+        if name == "pi":
+            return Typed(Const(math.pi), U.NONE)
+        if name in self.params:
+            p = self.params[name]
+            return Typed(p.expr, p.dim, p.celsius)
+        close = difflib.get_close_matches(name, list(self.params) + list(RESERVED), n=1)
+        hint = f"did you mean `{close[0]}`?" if close else "define it first with `let NAME = VALUE`"
+        if U.is_unit_word(name):
+            hint = f"`{name}` is a unit: write it right after a number, e.g. `1 {name}`"
+        raise self.err(tree, f"unknown name `{name}`", hint)
+
+    def _call(self, tree) -> Typed:
+        fname = str(tree.children[0])
+        arg_trees = [c for c in tree.children[1:] if c is not None]
+        if fname in SIGNAL_KINDS and self.signals_ok:
+            return self._signal(tree, fname, arg_trees)
+        args = [self._read(a) for a in arg_trees]
+        if fname in FUNCTIONS:
+            return self._function(tree, fname, args)
+        if fname in SHAPES:
+            return self._shape(tree, fname, args)
+        if fname in SIGNAL_KINDS:
+            raise self.err(tree, f"signal `{fname}(...)` is only allowed in `expect` and `record`")
+        close = difflib.get_close_matches(fname, FUNCTIONS + SHAPES, n=1)
+        hint = f"did you mean `{close[0]}`?" if close else f"functions: {' '.join(FUNCTIONS)}; shapes: {' '.join(SHAPES)}"
+        raise self.err(tree, f"unknown function `{fname}`", hint)
+
+    def _function(self, tree, fname, args) -> Typed:
+        if fname in ("min", "max"):
+            if len(args) < 2:
+                raise self.err(tree, f"`{fname}` needs at least two arguments")
+            for a in args[1:]:
+                if a.dim != args[0].dim:
+                    raise self.err(tree, f"`{fname}` needs arguments of one unit")
+            return Typed(_fold(Func(fname, tuple(a.expr for a in args))), args[0].dim)
+        if len(args) != 1:
+            raise self.err(tree, f"`{fname}` takes one argument, not {len(args)}")
+        a = args[0]
+        if fname == "sqrt":
+            return Typed(_fold(Func(fname, (a.expr,))), a.dim ** Fraction(1, 2))
+        if fname == "abs":
+            return Typed(_fold(Func(fname, (a.expr,))), a.dim)
+        if not a.dim.dimensionless:
+            raise self.err(tree, f"`{fname}` needs a plain number, not {U.unit_name(a.dim)}")
+        if fname == "log" and isinstance(a.expr, Const) and a.expr.v <= 0:
+            raise self.err(tree, "`log` of a number that is not positive")
+        return Typed(_fold(Func(fname, (a.expr,))), U.NONE)
+
+    def _shape(self, tree, fname, args) -> Typed:
+        for a, t in zip(args, tree.children[1:]):
+            if not isinstance(a.expr, Const):
+                raise self.err(t, f"the arguments of `{fname}` must be constant")
+        counts = {"step": 3, "ramp": 4, "pulse": 7, "sine": 3}
+        if fname in counts and len(args) != counts[fname]:
+            sig = {
+                "step": "step(before, after, at)",
+                "ramp": "ramp(before, after, start, stop)",
+                "pulse": "pulse(low, high, delay, rise, fall, width, period)",
+                "sine": "sine(offset, amplitude, frequency)",
+            }[fname]
+            raise self.err(tree, f"`{fname}` takes {counts[fname]} arguments, not {len(args)}", f"write {sig}")
+        v = [a.value for a in args]
+        if fname == "table":
+            if len(args) < 2 or len(args) % 2:
+                raise self.err(tree, "`table` takes pairs of time and value", "write table(t1, v1, t2, v2, ...)")
+            times, vals = args[0::2], args[1::2]
+            for t in times:
+                self._need(tree, t, U.TIME, "a table time")
+            for x in vals[1:]:
+                if x.dim != vals[0].dim:
+                    raise self.err(tree, "the values of a `table` need one unit")
+            tv = v[0::2]
+            if any(b < a for a, b in zip(tv, tv[1:])):
+                raise self.err(tree, "the times of a `table` must not decrease")
+            return Typed(Shape("table", tuple(v)), vals[0].dim, vals[0].celsius)
+        value_idx = {"step": (0, 1), "ramp": (0, 1), "pulse": (0, 1), "sine": (0, 1)}[fname]
+        d = args[value_idx[0]].dim
+        if args[value_idx[1]].dim != d:
+            raise self.err(tree, f"the two values of `{fname}` need one unit, not {U.unit_name(d)} and "
+                           f"{U.unit_name(args[value_idx[1]].dim)}")
+        if fname == "sine":
+            self._need(tree, args[2], U.FREQUENCY, "the frequency")
+            if args[1].celsius:
+                raise self.err(tree, "the amplitude of `sine` is a difference: write it in K")
+        else:
+            for a in args[2:]:
+                self._need(tree, a, U.TIME, "a time")
+        if fname == "ramp" and v[3] < v[2]:
+            raise self.err(tree, "a `ramp` must stop after it starts")
+        if fname == "pulse" and (min(v[3:7]) < 0):
+            raise self.err(tree, "the times of a `pulse` may not be negative")
+        return Typed(Shape(fname, tuple(v)), d, args[0].celsius)
+
+    def _need(self, tree, a: Typed, dim: U.Dim, what: str):
+        if a.dim != dim:
+            raise self.err(tree, f"{what} needs a unit of {U.unit_name(dim)}, not {U.unit_name(a.dim)}")
+
+    def _signal(self, tree, kind, arg_trees) -> Typed:
+        names = []
+        for a in arg_trees:
+            if not (isinstance(a, Tree) and a.data == "name"):
+                raise self.err(a if isinstance(a, Tree) else tree, f"`{kind}(...)` takes names")
+            names.append(str(a.children[0]))
+        text = f"{kind}({', '.join(names)})"
+        dim = self.signal_dim(kind, tuple(names), tree)
+        return Typed(SignalRef(kind, tuple(names), text), dim)
+
+
+def _fold(e: Expr) -> Expr:
+    """Constant-fold a node whose children are all constants."""
+    kids = e.children()
+    if kids and all(isinstance(k, Const) for k in kids):
+        v = evaluate(e)
+        try:
+            return Const(float(v))
+        except (TypeError, ValueError):
+            return e
+    return e

@@ -1,0 +1,200 @@
+"""Printing and writing results: readable tables, transient.csv, summary.json, matrices. Units only here."""
+from __future__ import annotations
+
+import csv
+import io
+import json
+import math
+import os
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+import numpy as np
+
+from . import __version__
+from .design import ELECTRICAL, THERMAL, Design
+from .results import Results
+
+ZERO_C = 273.15
+
+
+def write_atomic(path: Path, text: str) -> None:
+    """Write via a temporary file in the same directory and rename, so a crash never leaves half a file."""
+    path = Path(path)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", dir=path.parent)
+    try:
+        with os.fdopen(fd, "w", encoding="utf-8", newline="") as f:
+            f.write(text)
+        os.replace(tmp, path)
+    except BaseException:
+        if os.path.exists(tmp):
+            os.unlink(tmp)
+        raise
+
+
+def describe(d: Design) -> str:
+    """What `netgen check` prints: counts of nodes and elements by kind."""
+    thermal = sum(1 for n in d.nodes.values() if n.domain == THERMAL)
+    electrical = sum(1 for n in d.nodes.values() if n.domain == ELECTRICAL)
+    masses = sum(1 for n in d.nodes.values() if n.capacity is not None)
+    kinds: dict[str, int] = {}
+    for e in d.elements:
+        k = type(e).__name__.lower()
+        kinds[k] = kinds.get(k, 0) + 1
+    lines = [f"{d.file}: ok" + (f" — {d.title}" if d.title else "")]
+    lines.append(f"  nodes: {len(d.nodes)} ({thermal} thermal, {masses} with heat capacity; {electrical} electrical)")
+    lines.append(f"  elements: {len(d.elements)}" + (" (" + ", ".join(f"{v} {k}" for k, v in sorted(kinds.items())) + ")" if kinds else ""))
+    an = [type(a).__name__.lower() for a in d.analyses] or ["none (run solves the steady state)"]
+    lines.append(f"  analyses: {', '.join(an)}")
+    if d.expectations:
+        lines.append(f"  expectations: {len(d.expectations)}")
+    return "\n".join(lines)
+
+
+def _unit(signal: str) -> str:
+    return {"T": "K", "V": "V", "I": "A", "Q": "W", "P": "W"}.get(signal[0], "")
+
+
+def fmt(signal: str, v: float, celsius: bool) -> str:
+    if not math.isfinite(v):
+        return str(v)
+    if signal.startswith("T(") and celsius:
+        return f"{v:.4f} K ({v - ZERO_C:.3f} °C)"
+    return f"{v:.6g} {_unit(signal)}"
+
+
+def print_results(res: Results, out=None) -> None:
+    out = out or sys.stdout
+    d = res.design
+    title = d.title or Path(d.file).name
+    print(f"{title}", file=out)
+    if res.steady is not None:
+        print("\nsteady state", file=out)
+        width = max(len(s) for s in res.steady) if res.steady else 6
+        for s, v in res.steady.items():
+            print(f"  {s:<{width}}  {fmt(s, v, d.celsius)}", file=out)
+    if res.time is not None:
+        st = res.stats
+        print(f"\ntransient to {res.time[-1]:g} s ({st.get('steps', 0)} steps, {st.get('rejected', 0)} rejected)", file=out)
+        names = [s for s in res.signals if s in res.waveforms]
+        width = max([len(s) for s in names] + [6])
+        print(f"  {'signal':<{width}}  {'min':>24}  {'max':>24}  {'final':>24}", file=out)
+        for s in names:
+            w = res.waveforms[s]
+            cells = [fmt(s, float(f(w)), d.celsius) for f in (np.min, np.max, lambda a: a[-1])]
+            print(f"  {s:<{width}}  {cells[0]:>24}  {cells[1]:>24}  {cells[2]:>24}", file=out)
+    if res.checks:
+        print("\nexpectations", file=out)
+        for c in res.checks:
+            mark = "pass" if c.passed else "FAIL"
+            where = f"{c.loc.line}: " if c.loc is not None else ""
+            unit = c.unit if c.unit != "1" else ""
+            detail = f" ({c.detail})" if c.detail else ""
+            print(f"  {mark}  {where}{c.text}   measured {c.measured:.6g} {unit}, limit {c.limit:.6g} {unit}{detail}", file=out)
+        failed = sum(not c.passed for c in res.checks)
+        print(f"  {len(res.checks) - failed} passed, {failed} failed", file=out)
+
+
+def summary(res: Results) -> dict:
+    d = res.design
+    out: dict = {"design": d.title, "file": d.file, "netgen": __version__}
+    out["steady"] = dict(res.steady) if res.steady is not None else {}
+    if res.time is not None:
+        out["transient"] = {
+            s: {"min": float(np.min(w)), "max": float(np.max(w)), "final": float(w[-1])}
+            for s, w in res.waveforms.items() if s in res.signals
+        }
+        out["transient_stats"] = dict(res.stats, points=int(len(res.time)), until=float(res.time[-1]))
+    if res.checks:
+        out["expectations"] = [
+            {"text": c.text, "measured": c.measured, "limit": c.limit, "unit": c.unit, "passed": c.passed}
+            for c in res.checks
+        ]
+    return out
+
+
+def transient_csv(res: Results) -> str:
+    buf = io.StringIO()
+    w = csv.writer(buf, lineterminator="\n")
+    names = [s for s in res.signals if s in res.waveforms]
+    w.writerow(["time"] + names)
+    cols = [res.time] + [res.waveforms[s] for s in names]
+    for row in zip(*cols):
+        w.writerow([repr(float(v)) for v in row])
+    return buf.getvalue()
+
+
+def write_outputs(res: Results, out_dir: Path) -> list[Path]:
+    written = []
+    if res.time is not None:
+        p = out_dir / "transient.csv"
+        write_atomic(p, transient_csv(res))
+        written.append(p)
+    p = out_dir / "summary.json"
+    write_atomic(p, json.dumps(summary(res), indent=2, allow_nan=True) + "\n")
+    written.append(p)
+    return written
+
+
+def write_matrices(d: Design, out_dir: Path) -> list[Path]:
+    """G, C (constant parts, switches open at t = 0 state), b(0) and the unknowns' names."""
+    import scipy.io
+
+    from .assemble import assemble
+
+    sys_ = assemble(d)
+    out_dir.mkdir(parents=True, exist_ok=True)
+    written = []
+    state = sys_.switch_state(0.0)
+    for name, M in (("G", sys_.G(state)), ("C", sys_.C)):
+        buf = io.BytesIO()
+        scipy.io.mmwrite(buf, M.tocoo(), comment=f"netgen {__version__}: {name} of C*x' + G*x + f(x) = b(t) at t = 0")
+        p = out_dir / f"{name}.mtx"
+        write_atomic(p, buf.getvalue().decode("ascii"))
+        written.append(p)
+    buf = io.BytesIO()
+    scipy.io.mmwrite(buf, sys_.b(0.0).reshape(-1, 1), comment="b(t) at t = 0 (sources)")
+    p = out_dir / "b.mtx"
+    write_atomic(p, buf.getvalue().decode("ascii"))
+    written.append(p)
+    p = out_dir / "unknowns.txt"
+    write_atomic(p, "".join(f"{i}\t{n}\n" for i, n in enumerate(sys_.names)))
+    written.append(p)
+    if not sys_.linear:
+        note = ("# f(x) holds the nonlinear terms (thermoelectric Peltier and Joule heat, self-heating,\n"
+                "# temperature-dependent resistors); it is not written as a matrix.\n")
+        p = out_dir / "README.txt"
+        write_atomic(p, note)
+        written.append(p)
+    return written
+
+
+class Progress:
+    """A one-line progress report on a terminal for transients longer than about a second."""
+
+    def __init__(self, until: float, stream=None):
+        self.until, self.stream = until, stream or sys.stderr
+        self.start = time.monotonic()
+        self.last = 0.0
+        self.shown = False
+
+    def __call__(self, t: float, steps: int) -> None:
+        now = time.monotonic()
+        elapsed = now - self.start
+        if elapsed < 1.0 or now - self.last < 0.2:
+            return
+        self.last = now
+        frac = min(1.0, t / self.until) if self.until > 0 else 1.0
+        eta = elapsed * (1 - frac) / frac if frac > 0 else float("nan")
+        self.stream.write(f"\r  t = {t:.4g} s of {self.until:g} s ({100 * frac:.0f} %), {steps} steps, "
+                          f"{elapsed:.1f} s elapsed, about {eta:.0f} s left   ")
+        self.stream.flush()
+        self.shown = True
+
+    def done(self) -> None:
+        if self.shown:
+            self.stream.write("\n")
+            self.stream.flush()

@@ -1,0 +1,53 @@
+"""Runs a Design's analyses in order: assemble, steady, transient, expectations → Results."""
+from __future__ import annotations
+
+import numpy as np
+
+from .analysis.steady import solve_dc
+from .analysis.transient import integrate
+from .assemble import assemble
+from .design import Design
+from .errors import NetgenError
+from .results import Results, SignalEval, evaluate_expectation, refs, signal_texts
+
+
+def run_design(d: Design, progress=None) -> Results:
+    """Solve every analysis of `d`. With none declared, the steady state is solved."""
+    sys = assemble(d)
+    sig = SignalEval(d, sys)
+    wanted = signal_texts(d)
+    extra = [r.text for e in d.expectations for r in refs(e.expr)]
+    res = Results(design=d, signals=wanted)
+    states: dict[str, tuple] = {}
+    want_steady = d.steady is not None or d.transient is None or any(e.agg == "steady" for e in d.expectations)
+    if want_steady:
+        try:
+            xs = solve_dc(sys, 0.0)
+        except NetgenError as e:
+            e.loc = e.loc or (d.steady.loc if d.steady else None)
+            raise
+        X = xs[None, :]
+        states["steady"] = (X, np.zeros_like(X), np.array([0.0]))
+        res.steady = {s: float(sig(s, X, np.zeros_like(X), np.array([0.0]))[0]) for s in wanted}
+    if d.transient is not None:
+        tr = d.transient
+        try:
+            x0 = solve_dc(sys, 0.0, impose=True)
+            wf = integrate(sys, x0, tr.until, tr.step, tr.tolerance, progress)
+        except NetgenError as e:
+            e.loc = e.loc or tr.loc
+            raise
+        states["transient"] = (wf.x, wf.xdot, wf.time)
+        res.time = wf.time
+        res.waveforms = {s: sig(s, wf.x, wf.xdot, wf.time) for s in dict.fromkeys(wanted + extra)}
+        res.initial = {name: float(v) for name, v in zip(sys.names, x0)}
+        res.stats = {"steps": wf.steps, "rejected": wf.rejected, "factorizations": wf.factorizations}
+
+    def signal_of(analysis, text):
+        if analysis == "steady" and res.steady is not None and text in res.steady:
+            return res.steady[text]
+        X, Xd, t = states[analysis]
+        return sig(text, X, Xd, t)
+
+    res.checks = [evaluate_expectation(e, res, signal_of) for e in d.expectations]
+    return res

@@ -1,0 +1,131 @@
+"""The networkx graph of both domains and the structural checks that name nodes and elements."""
+from __future__ import annotations
+
+import networkx as nx
+
+from .design import (
+    ELECTRICAL, THERMAL, Capacitor, CurrentSource, Design, Fixed, Inductor, Link, Resistor,
+    Switch, Thermoelectric, TwoTerminal, VoltageSource,
+)
+from .errors import NetgenError, NetgenErrors
+
+THERMAL_REF = "<absolute zero>"
+
+
+def graph(d: Design) -> nx.MultiGraph:
+    """Nodes of both domains; an edge per two-terminal branch, labelled with its element.
+
+    Reservoirs and masses join their node to the thermal reference; ground nodes are merged
+    into one electrical reference by an edge of kind "ground".
+    """
+    g = nx.MultiGraph()
+    for n in d.nodes.values():
+        g.add_node(n.name, domain=n.domain)
+    g.add_node(THERMAL_REF, domain=THERMAL)
+    for e in d.elements:
+        if isinstance(e, TwoTerminal):
+            g.add_edge(e.a, e.b, element=e.name, kind=type(e).__name__)
+        elif isinstance(e, Thermoelectric):
+            g.add_edge(e.p, e.n, element=e.name, kind="pins")
+            g.add_edge(e.a, e.b, element=e.name, kind="sides")
+        elif isinstance(e, Fixed):
+            g.add_edge(e.node, THERMAL_REF, element=e.name, kind="Fixed")
+    for n in d.nodes.values():
+        if n.capacity is not None:
+            g.add_edge(n.name, THERMAL_REF, element=n.name, kind="mass")
+    return g
+
+
+def _domain_graph(d: Design, domain: str, dc: bool) -> nx.Graph:
+    """Connectivity of one domain; with `dc`, only branches that carry a steady current."""
+    g = nx.Graph()
+    g.add_nodes_from(n.name for n in d.nodes.values() if n.domain == domain)
+    for e in d.elements:
+        if isinstance(e, TwoTerminal) and d.nodes[e.a].domain == domain:
+            if dc and isinstance(e, (Capacitor, CurrentSource)):
+                continue
+            g.add_edge(e.a, e.b)
+        elif isinstance(e, Thermoelectric):
+            if domain == ELECTRICAL:
+                g.add_edge(e.p, e.n)
+            else:
+                g.add_edge(e.a, e.b)
+    return g
+
+
+def _names(nodes) -> str:
+    nodes = sorted(nodes)
+    shown = ", ".join(f"`{n}`" for n in nodes[:6])
+    return shown + (f" and {len(nodes) - 6} more" if len(nodes) > 6 else "")
+
+
+def check_design(d: Design) -> None:
+    """Structural checks before any solve. Raises NetgenError naming nodes and elements."""
+    errors: list[NetgenError] = []
+    if not d.nodes:
+        raise NetgenError("the design has no nodes", None, "add masses, links, resistors ...")
+    fixed_nodes = {e.node for e in d.elements if isinstance(e, Fixed)}
+
+    # Electrical islands need a ground.
+    eg = _domain_graph(d, ELECTRICAL, dc=False)
+    for comp in nx.connected_components(eg):
+        if not comp & set(d.grounds):
+            first = min((d.nodes[n] for n in comp), key=lambda n: (n.loc.line, n.loc.col))
+            errors.append(NetgenError(
+                f"electrical nodes {_names(comp)} have no path to a ground", first.loc,
+                "add `ground NODE` for one of them"))
+
+    # Thermal islands: a reservoir, or a start for every mass; never only junctions.
+    tg = _domain_graph(d, THERMAL, dc=False)
+    needs_reference = d.steady is not None
+    for comp in nx.connected_components(tg):
+        if comp & fixed_nodes:
+            continue
+        first = min((d.nodes[n] for n in comp), key=lambda n: (n.loc.line, n.loc.col))
+        masses = [d.nodes[n] for n in comp if d.nodes[n].capacity is not None]
+        if not masses:
+            errors.append(NetgenError(
+                f"thermal nodes {_names(comp)} have neither a reservoir nor a heat capacity", first.loc,
+                "fix one of them with `fixed NODE TEMP` or give one a `mass`"))
+            continue
+        if needs_reference:
+            errors.append(NetgenError(
+                f"thermal nodes {_names(comp)} have no reservoir, so `steady` has no answer", d.steady.loc,
+                "add `fixed NODE TEMP` to one of them, or drop `steady` and give every mass a start"))
+            continue
+        unstarted = [m.name for m in masses if m.start is None]
+        if unstarted:
+            errors.append(NetgenError(
+                f"thermal nodes {_names(comp)} have no reservoir, so every mass needs a start; "
+                f"{_names(unstarted)} has none", d.nodes[unstarted[0]].loc,
+                "write `start TEMP` on the mass, or add `fixed NODE TEMP`"))
+
+    # Loops of voltage-defining branches make the equations singular.
+    vg = nx.Graph()
+    for e in d.elements:
+        if isinstance(e, (VoltageSource, Inductor)):
+            a = "<ground>" if e.a in d.grounds else e.a
+            b = "<ground>" if e.b in d.grounds else e.b
+            if a == b or vg.has_edge(a, b) or (a in vg and b in vg and nx.has_path(vg, a, b)):
+                errors.append(NetgenError(
+                    f"`{e.name}` closes a loop of voltage sources and inductors", e.loc,
+                    "put a resistor in the loop"))
+                continue
+            vg.add_edge(a, b)
+    if errors:
+        raise NetgenErrors(errors) if len(errors) > 1 else errors[0]
+
+
+def unused_warnings(d: Design) -> list[str]:
+    """Nodes with a single connection: legal, but often a typo."""
+    g = graph(d)
+    out = []
+    for n in d.nodes.values():
+        if n.name in d.grounds or n.capacity is not None:
+            continue
+        if g.degree(n.name) == 1:
+            out.append(f"{n.loc}: note: node `{n.name}` has one connection")
+    return out
+
+
+__all__ = ["graph", "check_design", "unused_warnings", "THERMAL_REF", "Link", "Resistor", "Switch"]
