@@ -105,6 +105,10 @@ def integrate(sys: System, x0: np.ndarray, t_end: float, max_step: float | None 
     hmax = max_step if max_step else t_end / 200.0
     corners = sys.corners(t_end) + [t_end]
     alg = sys.algebraic_rows
+    # The relative part of the error weight applies to temperatures' change from the start,
+    # not to their absolute value: 1e-4 of 300 K would allow 30 mK per step.
+    is_temp = np.array([k == "T" for k in sys.kinds], dtype=bool)
+    offset = np.where(is_temp, x0, 0.0)
     C = sys.C
     fac = _Factors(sys)
 
@@ -126,7 +130,7 @@ def integrate(sys: System, x0: np.ndarray, t_end: float, max_step: float | None 
         if lands:
             h = next_corner - t
         mid_state = sys.switch_state(t + 0.5 * h)
-        weights = atol + rtol * np.abs(x)
+        weights = atol + rtol * np.abs(x - offset)
         # Stage 1, trapezoidal to t + γh.
         hg = GAMMA * h
         rhs1 = C @ x + D * h * z  # (γh/2)·z = d·h·z
@@ -147,7 +151,7 @@ def integrate(sys: System, x0: np.ndarray, t_end: float, max_step: float | None 
         est_rhs = 2.0 * K_ERR * h * (z / GAMMA - z1 / (GAMMA * (1 - GAMMA)) + z_new / (1 - GAMMA))
         lu = fac.get(h, mid_state, x_new)
         est = lu.solve(est_rhs) if lu is not None else est_rhs
-        w = atol + rtol * np.maximum(np.abs(x), np.abs(x_new))
+        w = atol + rtol * np.maximum(np.abs(x - offset), np.abs(x_new - offset))
         err = float(np.sqrt(np.mean((est / w) ** 2))) if n else 0.0
         if not math.isfinite(err):
             err = 1e10
