@@ -249,7 +249,7 @@ class Elaborator:
         name = str(name_tok)
         if name in self.params:
             raise self.err(name_tok, f"parameter `{name}` is already defined at line {self.param_locs[name].line}")
-        if name in ("time", "pi") or name in SIGNAL_KINDS and False:
+        if name in ("time", "pi"):
             raise self.err(name_tok, f"`{name}` is a reserved name")
         if U.is_unit_word(name):
             raise self.err(name_tok, f"`{name}` is a unit symbol and cannot name a parameter", "choose another name")

@@ -127,6 +127,9 @@ class ExprReader:
             return Typed(Time(), U.TIME)
         if name == "pi":
             return Typed(Const(math.pi), U.NONE)
+        if name in U.ABSOLUTE_CELSIUS:
+            raise self.err(tree, f"`{name}` may not appear inside a compound unit",
+                           "write temperature differences in K, e.g. `W/K`")
         if name in self.params:
             p = self.params[name]
             return Typed(p.expr, p.dim, p.celsius)
