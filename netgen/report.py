@@ -61,9 +61,17 @@ def _unit(signal: str) -> str:
 def fmt(signal: str, v: float, celsius: bool) -> str:
     if not math.isfinite(v):
         return str(v)
+    if abs(v) < 1e-20:
+        v = 0.0  # round-off around zero (an open circuit's current) reads as zero
     if signal.startswith("T(") and celsius:
         return f"{v:.4f} K ({v - ZERO_C:.3f} °C)"
     return f"{v:.6g} {_unit(signal)}"
+
+
+def _value(v: float, unit: str, celsius: bool) -> str:
+    if celsius and unit == "K" and math.isfinite(v):
+        return f"{v - ZERO_C:.4g} °C"
+    return f"{v:.6g}" + (f" {unit}" if unit != "1" else "")
 
 
 def print_results(res: Results, out=None) -> None:
@@ -91,9 +99,9 @@ def print_results(res: Results, out=None) -> None:
         for c in res.checks:
             mark = "pass" if c.passed else "FAIL"
             where = f"{c.loc.line}: " if c.loc is not None else ""
-            unit = c.unit if c.unit != "1" else ""
             detail = f" ({c.detail})" if c.detail else ""
-            print(f"  {mark}  {where}{c.text}   measured {c.measured:.6g} {unit}, limit {c.limit:.6g} {unit}{detail}", file=out)
+            print(f"  {mark}  {where}{c.text}   measured {_value(c.measured, c.unit, c.celsius)}, "
+                  f"limit {_value(c.limit, c.unit, c.celsius)}{detail}", file=out)
         failed = sum(not c.passed for c in res.checks)
         print(f"  {len(res.checks) - failed} passed, {failed} failed", file=out)
 

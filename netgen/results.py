@@ -103,6 +103,7 @@ class Check:
     passed: bool
     loc: object = None
     detail: str = ""
+    celsius: bool = False  # the limit was written in degC: show it so
 
 
 @dataclass
@@ -172,7 +173,7 @@ def evaluate_expectation(e: Expectation, res: Results, signal_of) -> Check:
         ok = abs(measured - lim) <= tol
     else:
         ok = {"<": measured < lim, "<=": measured <= lim, ">": measured > lim, ">=": measured >= lim}[e.cmp]
-    return Check(e.text, measured, lim, e.unit, bool(ok), e.loc)
+    return Check(e.text, measured, lim, e.unit, bool(ok), e.loc, celsius=e.celsius)
 
 
 __all__ = ["Results", "SignalEval", "Check", "default_signals", "signal_texts", "evaluate_expectation", "Signal"]

@@ -42,17 +42,22 @@ class Waveforms:
 
 
 class _Factors:
-    """LU of C + d·h·J, cached by (h, switch state) for linear systems."""
+    """LU of C + d·h·J. Linear systems: cached by (h, switch state). Nonlinear ones: the last
+    factorisation is reused (simplified Newton) until Newton asks for a fresh Jacobian."""
 
     def __init__(self, sys: System):
         self.sys = sys
         self.cache: dict = {}
         self.count = 0
+        self.last_key = None
+        self.last_lu = None
 
-    def get(self, h, state, x=None):
+    def get(self, h, state, x=None, fresh=False):
         key = (h, state)
         if self.sys.linear and key in self.cache:
             return self.cache[key]
+        if not self.sys.linear and not fresh and key == self.last_key:
+            return self.last_lu
         M = (self.sys.C + (D * h) * self.sys.J(x, state)).tocsc()
         with warnings.catch_warnings():
             warnings.simplefilter("error", sp.linalg.MatrixRankWarning)
@@ -65,6 +70,7 @@ class _Factors:
             if len(self.cache) > 16:
                 self.cache.clear()
             self.cache[key] = lu
+        self.last_key, self.last_lu = key, lu
         return lu
 
 
@@ -80,7 +86,8 @@ def _stage(sys, fac, h, state, rhs, t, x_guess, left, weights):
         y = lu.solve(rhs + D * h * sys.b(t, left))
         return y, bool(np.all(np.isfinite(y)))
     lu = fac.get(h, state, y)
-    for it in range(12):
+    fresh = False
+    for it in range(16):
         if lu is None:
             return y, False
         r = C @ y + D * h * sys.F(y, t, state, left) - rhs
@@ -90,8 +97,9 @@ def _stage(sys, fac, h, state, rhs, t, x_guess, left, weights):
         y = y + dy
         if np.max(np.abs(dy) / weights) < 1e-3:
             return y, True
-        if it >= 1:
-            lu = fac.get(h, state, y)  # refresh the Jacobian when one iteration was not enough
+        if it >= 2 and not fresh:
+            lu = fac.get(h, state, y, fresh=True)  # slow convergence: take a fresh Jacobian once
+            fresh = True
     return y, False
 
 
@@ -169,7 +177,8 @@ def integrate(sys: System, x0: np.ndarray, t_end: float, max_step: float | None 
         xs.append(x.copy())
         xds.append(xdot)
         factor = 0.9 * err ** (-1.0 / 3.0) if err > 0 else 5.0
-        h_next = h * min(5.0, max(0.2, factor))
+        # Small increases are not worth a new factorisation: keep h unless it can grow by half.
+        h_next = h if 1.0 <= factor < 1.5 else h * min(5.0, max(0.2, factor))
         if lands:
             # A corner: sources may jump, so the derivative is taken afresh from the right.
             state = sys.switch_state(t)
