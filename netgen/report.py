@@ -94,6 +94,8 @@ def print_results(res: Results, out=None) -> None:
             w = res.waveforms[s]
             cells = [fmt(s, float(f(w)), d.celsius) for f in (np.min, np.max, lambda a: a[-1])]
             print(f"  {s:<{width}}  {cells[0]:>24}  {cells[1]:>24}  {cells[2]:>24}", file=out)
+    if res.modes is not None:
+        print_modes(res, out)
     if res.checks:
         print("\nexpectations", file=out)
         for c in res.checks:
@@ -106,6 +108,22 @@ def print_results(res: Results, out=None) -> None:
         print(f"  {len(res.checks) - failed} passed, {failed} failed", file=out)
 
 
+def print_modes(res: Results, out) -> None:
+    print(f"\nmodes of the linearised system ({len(res.modes)})", file=out)
+    print(f"  {'eigenvalue (1/s)':>28}  {'decay time':>12}  {'frequency':>12}  {'damping':>8}  takes part most", file=out)
+    for m in res.modes:
+        lam = f"{m.real:.5g}" + (f" ± {m.imag:.5g}j" if m.oscillatory else "")
+        decay = f"{m.decay_time:.4g} s" if math.isfinite(m.decay_time) else "grows" if m.real > 0 else "none"
+        freq = f"{m.frequency:.4g} Hz" if m.oscillatory else "-"
+        who = ", ".join(f"{n} {100 * s:.0f} %" for n, s in m.nodes)
+        print(f"  {lam:>28}  {decay:>12}  {freq:>12}  {m.damping:>8.3f}  {who}", file=out)
+    osc = [m for m in res.modes if m.oscillatory]
+    if osc:
+        m = min(osc, key=lambda m: m.damping)
+        print(f"  oscillatory: the least damped pair rings at {m.frequency:.4g} Hz with damping ratio "
+              f"{m.damping:.3f}; temperatures in it can overshoot their final values", file=out)
+
+
 def summary(res: Results) -> dict:
     d = res.design
     out: dict = {"design": d.title, "file": d.file, "netgen": __version__}
@@ -116,6 +134,8 @@ def summary(res: Results) -> dict:
             for s, w in res.waveforms.items() if s in res.signals
         }
         out["transient_stats"] = dict(res.stats, points=int(len(res.time)), until=float(res.time[-1]))
+    if res.modes is not None:
+        out["modes"] = [m.as_dict() for m in res.modes]
     if res.checks:
         out["expectations"] = [
             {"text": c.text, "measured": c.measured, "limit": c.limit, "unit": c.unit, "passed": c.passed}

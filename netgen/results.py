@@ -118,6 +118,7 @@ class Results:
     checks: list[Check] = field(default_factory=list)
     stats: dict = field(default_factory=dict)
     initial: dict[str, float] = field(default_factory=dict)
+    modes: list | None = None  # analysis.modes.Mode, slowest first
 
     def __getitem__(self, signal: str) -> np.ndarray:
         return self.waveforms[signal]

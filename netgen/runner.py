@@ -3,10 +3,11 @@ from __future__ import annotations
 
 import numpy as np
 
+from .analysis.modes import modes
 from .analysis.steady import solve_dc
 from .analysis.transient import integrate
 from .assemble import assemble
-from .design import Design
+from .design import Design, Modes
 from .errors import NetgenError
 from .results import Results, SignalEval, evaluate_expectation, refs, signal_texts
 
@@ -42,6 +43,18 @@ def run_design(d: Design, progress=None) -> Results:
         res.waveforms = {s: sig(s, wf.x, wf.xdot, wf.time) for s in dict.fromkeys(wanted + extra)}
         res.initial = {name: float(v) for name, v in zip(sys.names, x0)}
         res.stats = {"steps": wf.steps, "rejected": wf.rejected, "factorizations": wf.factorizations}
+
+    want_modes = next((a for a in d.analyses if isinstance(a, Modes)), None)
+    if want_modes is not None:
+        # The linearisation point: the transient's start when there is one, else the steady state.
+        if d.transient is not None:
+            x_lin = np.array([res.initial[n] for n in sys.names])
+        else:
+            x_lin = states["steady"][0][0] if "steady" in states else solve_dc(sys, 0.0, impose=True)
+        try:
+            res.modes = modes(sys, x_lin)
+        except ValueError as e:
+            raise NetgenError(str(e), want_modes.loc, "drop `modes` for a mesh this large") from None
 
     def signal_of(analysis, text):
         if analysis == "steady" and res.steady is not None and text in res.steady:
