@@ -34,7 +34,8 @@ class SignalEval:
         i = self.sys.node_index[name]
         return X[:, i] if i < self.sys.n else np.zeros(X.shape[0])
 
-    def __call__(self, text: str, X, Xdot, t) -> np.ndarray:
+    def __call__(self, text: str, X, Xdot, t, left: bool = False) -> np.ndarray:
+        """`left` takes the limit from before at source corners (for integrals over steps)."""
         kind, inner = text[0], text[2:-1]
         args = [a.strip() for a in inner.split(",")]
         d, sys = self.d, self.sys
@@ -56,10 +57,10 @@ class SignalEval:
             if isinstance(e, Link):
                 return e.conductance * (self._node(X, e.a) - self._node(X, e.b))
             if isinstance(e, Heat):
-                return np.array([e.power.at(float(tt)) for tt in np.atleast_1d(t)])
+                return np.array([e.power.at(float(tt), left) for tt in np.atleast_1d(t)])
             if isinstance(e, Fixed):
                 return X[:, sys.branch_index[e.name]]
-        current = self._current(e, X, Xdot, t)
+        current = self._current(e, X, Xdot, t, left)
         if kind == "I":
             return current
         if kind == "P":
@@ -70,12 +71,12 @@ class SignalEval:
             return u * current
         raise KeyError(text)
 
-    def _current(self, e, X, Xdot, t):
+    def _current(self, e, X, Xdot, t, left=False):
         sys = self.sys
         if isinstance(e, (Inductor, VoltageSource, Thermoelectric)):
             return X[:, sys.branch_index[e.name]]
         if isinstance(e, CurrentSource):
-            return np.array([e.value.at(float(tt)) for tt in np.atleast_1d(t)])
+            return np.array([e.value.at(float(tt), left) for tt in np.atleast_1d(t)])
         u = self._node(X, e.a) - self._node(X, e.b)
         if isinstance(e, Resistor):
             r = np.full(X.shape[0], e.resistance)
@@ -87,9 +88,16 @@ class SignalEval:
             ud = self._node(Xdot, e.a) - self._node(Xdot, e.b)
             return e.capacitance * ud
         if isinstance(e, Switch):
-            g = np.array([1.0 / (e.r_on if e.closed_at(float(tt)) else e.r_off) for tt in np.atleast_1d(t)])
+            g = np.array([1.0 / (e.r_on if _closed(e, float(tt), left) else e.r_off) for tt in np.atleast_1d(t)])
             return g * u
         raise KeyError(e.name)
+
+
+def _closed(sw: Switch, t: float, left: bool) -> bool:
+    """Closed on [t1, t2); from the left, on (t1, t2]."""
+    if not left:
+        return sw.closed_at(t)
+    return any(t1 < t <= t2 for t1, t2 in sw.intervals)
 
 
 @dataclass

@@ -9,7 +9,8 @@ from .analysis.transient import integrate
 from .assemble import assemble
 from .design import Design, Modes
 from .errors import NetgenError
-from .results import Results, SignalEval, evaluate_expectation, refs, signal_texts
+from .audits import energy_audit, entropy_audit, needed_signals
+from .results import Check, Results, SignalEval, evaluate_expectation, refs, signal_texts
 
 
 def run_design(d: Design, progress=None) -> Results:
@@ -63,4 +64,20 @@ def run_design(d: Design, progress=None) -> Results:
         return sig(text, X, Xd, t)
 
     res.checks = [evaluate_expectation(e, res, signal_of) for e in d.expectations]
+    res.checks += [_audit(d, a, states.get("transient"), sig) for a in d.audits]
     return res
+
+
+def _audit(d: Design, a, transient, sig) -> Check:
+    text = f"audit {a.kind}" + (f" within {100 * a.within:g} %" if a.within is not None else "")
+    if transient is None:
+        return Check(text, float("nan"), float("nan"), "", False, a.loc, "an audit needs a `transient`")
+    X, Xd, t = transient
+    names = needed_signals(d)
+    right = {s: sig(s, X, Xd, t) for s in names}
+    left = {s: sig(s, X, Xd, t, left=True) for s in names}
+    if a.kind == "energy":
+        r = energy_audit(d, t, right, left, a.within)
+        return Check(text, 100 * r.measured, 100 * r.limit, "%", r.passed, a.loc, r.detail)
+    r = entropy_audit(d, t, right, left)
+    return Check(text, r.measured, r.limit, "1", r.passed, a.loc, r.detail)
