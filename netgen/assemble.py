@@ -65,6 +65,7 @@ class System:
     sw_which: np.ndarray
     te: dict = field(default_factory=dict)
     nres: dict = field(default_factory=dict)
+    tev: list = field(default_factory=list)  # (element, a, b, k) with temperature-dependent S, R, K
     start_nodes: list[tuple[int, int, float]] = field(default_factory=list)
     start_branches: list[tuple[int, float]] = field(default_factory=list)
     corners_of: list = field(default_factory=list)
@@ -72,7 +73,7 @@ class System:
     # ---- linear, time-dependent part ----------------------------------------------
     @property
     def linear(self) -> bool:
-        return len(self.te["k"]) == 0 and len(self.nres["a"]) == 0
+        return len(self.te["k"]) == 0 and len(self.nres["a"]) == 0 and not self.tev
 
     def switch_state(self, t: float) -> tuple[bool, ...]:
         return tuple(s.closed_at(t) for s in self.switches)
@@ -118,6 +119,12 @@ class System:
             np.add.at(out, nr["a"], i)
             np.add.at(out, nr["b"], -i)
             np.add.at(out, nr["h"], -u * i)
+        for e, a, b, k in self.tev:
+            Ta, Tb, I = xe[a], xe[b], xe[k]
+            S, R, K = e.values_at(0.5 * (Ta + Tb))
+            out[k] += -I * R - S * (Tb - Ta)
+            out[a] += S * Ta * I - 0.5 * I * I * R + K * (Ta - Tb)
+            out[b] -= S * Tb * I + 0.5 * I * I * R + K * (Ta - Tb)
         return out[: self.n]
 
     def _res_g(self, xe):
@@ -155,6 +162,23 @@ class System:
             rows += [h, h, h]
             cols += [a, b, t]
             vals += [-2 * u * g, 2 * u * g, -u * u * dg]
+        for e, a, b, k in self.tev:
+            Ta, Tb, I = xe[a], xe[b], xe[k]
+            Tm, dT = 0.5 * (Ta + Tb), 1e-3
+            S, R, K = e.values_at(Tm)
+            hi, lo = e.values_at(Tm + dT), e.values_at(Tm - dT)
+            dS, dR, dK = ((h - l) / (2 * dT) for h, l in zip(hi, lo))  # d/dTm, central difference
+            common_k = -0.5 * I * dR - 0.5 * dS * (Tb - Ta)
+            fa_m = 0.5 * dS * Ta * I - 0.25 * I * I * dR + 0.5 * dK * (Ta - Tb)
+            fb_m = 0.5 * dS * Tb * I + 0.25 * I * I * dR + 0.5 * dK * (Ta - Tb)
+            entries = [
+                (k, k, -R), (k, a, common_k + S), (k, b, common_k - S),
+                (a, k, S * Ta - I * R), (a, a, S * I + K + fa_m), (a, b, -K + fa_m),
+                (b, k, -(S * Tb + I * R)), (b, a, -(K + fb_m)), (b, b, -(S * I - K + fb_m)),
+            ]
+            rows.append(np.array([r for r, _, _ in entries]))
+            cols.append(np.array([c for _, c, _ in entries]))
+            vals.append(np.array([v for _, _, v in entries], dtype=float))
         if not rows:
             return sp.csc_matrix((self.n, self.n))
         r, c, v = np.concatenate(rows), np.concatenate(cols), np.concatenate(vals)
@@ -221,6 +245,7 @@ def assemble(d: Design) -> System:
 
     sw_r, sw_c, sw_s, sw_w, switches = [], [], [], [], []
     te = {k: [] for k in ("a", "b", "k", "S", "R")}
+    tev: list = []
     nres = {k: [] for k in ("a", "b", "t", "h", "alpha", "ref", "R0")}
     starts_nodes: list[tuple[int, int, float]] = []
     starts_br: list[tuple[int, float]] = []
@@ -293,6 +318,9 @@ def assemble(d: Design) -> System:
             G.add(q, k, -1.0)
             G.add(k, p, 1.0)
             G.add(k, q, -1.0)
+            if e.props is not None:
+                tev.append((e, a, b, k))
+                continue
             G.add(k, k, -e.resistance)
             G.add(k, b, -e.seebeck)
             G.add(k, a, e.seebeck)
@@ -314,6 +342,6 @@ def assemble(d: Design) -> System:
         switches=switches,
         sw_rows=np.asarray(sw_r, dtype=int), sw_cols=np.asarray(sw_c, dtype=int),
         sw_sign=np.asarray(sw_s, dtype=float), sw_which=np.asarray(sw_w, dtype=int),
-        te=te_arr, nres=nr_arr, start_nodes=starts_nodes, start_branches=starts_br,
+        te=te_arr, nres=nr_arr, tev=tev, start_nodes=starts_nodes, start_branches=starts_br,
         corners_of=corners_of,
     )

@@ -142,8 +142,25 @@ class Switch(TwoTerminal):
 
 
 @dataclass
+class Material:
+    """Thermoelectric material: Seebeck coefficient (V/K), resistivity (ohm·m), thermal
+    conductivity (W/(m·K)), each an expression of the temperature `T` in K."""
+
+    name: str
+    loc: Loc
+    seebeck: Expr
+    resistivity: Expr
+    conductivity: Expr
+
+
+@dataclass
 class Thermoelectric(Element):
-    """Lumped module: pins p, n (electrical), sides a, b (thermal); I from p to n moves heat a → b."""
+    """Module: pins p, n (electrical), sides a, b (thermal); I from p to n moves heat a → b.
+
+    `seebeck`, `resistance`, `conductance` are the lumped S, R, K. When they depend on
+    temperature (a material with expressions of T), `props` holds them as expressions of the
+    mean side temperature `T`, and the floats hold their values at 300 K for reports only.
+    """
 
     p: str = ""
     n: str = ""
@@ -152,10 +169,21 @@ class Thermoelectric(Element):
     seebeck: float = 0.0
     resistance: float = 0.0
     conductance: float = 0.0
+    props: tuple | None = None
+    form: str = "lumped"  # lumped | couples | rated
+    hottest: float | None = None  # highest allowed side temperature, K
 
     @property
     def terminals(self):
         return (self.p, self.n, self.a, self.b)
+
+    def values_at(self, T):
+        """S, R, K at mean side temperature T (float or array)."""
+        if self.props is None:
+            return self.seebeck, self.resistance, self.conductance
+        from .expr import evaluate
+
+        return tuple(evaluate(e, T=T) for e in self.props)
 
 
 @dataclass
@@ -227,6 +255,7 @@ class Design:
     expectations: list[Expectation] = field(default_factory=list)
     audits: list[Audit] = field(default_factory=list)
     params: dict[str, tuple[float, str]] = field(default_factory=dict)
+    materials: dict[str, Material] = field(default_factory=dict)
     celsius: bool = False  # the text wrote temperatures in degC: show °C beside K
 
     def element(self, name: str) -> Element | None:

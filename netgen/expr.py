@@ -26,6 +26,10 @@ class Expr:
         return any(isinstance(n, (Time, Shape)) for n in self.walk()) and not isinstance(self, Const)
 
     @property
+    def uses_vars(self) -> bool:
+        return any(isinstance(n, Var) for n in self.walk())
+
+    @property
     def uses_signals(self) -> bool:
         return any(isinstance(n, SignalRef) for n in self.walk())
 
@@ -42,6 +46,16 @@ class Const(Expr):
 class Time(Expr):
     def value(self, env):
         return env["time"]
+
+
+@dataclass(frozen=True)
+class Var(Expr):
+    """A named variable bound at evaluation, such as the temperature `T` of a material."""
+
+    name: str
+
+    def value(self, env):
+        return env[self.name]
 
 
 @dataclass(frozen=True)
@@ -220,9 +234,9 @@ def corners(expr: Expr, t_end: float) -> list[float]:
     return sorted(out)
 
 
-def evaluate(expr: Expr, time=0.0, left: bool = False, signals: dict | None = None):
+def evaluate(expr: Expr, time=0.0, left: bool = False, signals: dict | None = None, **variables):
     """Evaluate at `time` (float or array); `left` takes limits from before at corners."""
-    return expr.value({"time": time, "left": left, "signals": signals or {}})
+    return expr.value({"time": time, "left": left, "signals": signals or {}, **variables})
 
 
 @dataclass

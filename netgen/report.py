@@ -14,7 +14,7 @@ from pathlib import Path
 import numpy as np
 
 from . import __version__
-from .design import ELECTRICAL, THERMAL, Design
+from .design import ELECTRICAL, THERMAL, Design, Thermoelectric
 from .results import Results
 
 ZERO_C = 273.15
@@ -51,7 +51,31 @@ def describe(d: Design) -> str:
     lines.append(f"  analyses: {', '.join(an)}")
     if d.expectations:
         lines.append(f"  expectations: {len(d.expectations)}")
+    modules = d.of_kind(Thermoelectric)
+    if modules:
+        temps = _start_temperatures(d)
+        lines.append("  thermoelectric modules (at the mean side temperature of the start state):")
+        for m in modules:
+            Tm = 0.5 * (temps.get(m.a, 300.0) + temps.get(m.b, 300.0))
+            S, R, K = (float(v) for v in m.values_at(Tm))
+            Z = S * S / (R * K)
+            lines.append(f"    {m.name} ({m.form}): S = {S:.5g} V/K, R = {R:.5g} ohm, K = {K:.5g} W/K, "
+                         f"Z = {Z:.4g} 1/K, Z·T = {Z * Tm:.3f} at {Tm:.2f} K")
     return "\n".join(lines)
+
+
+def _start_temperatures(d: Design) -> dict[str, float]:
+    """Temperatures of the transient's start (or the steady state); {} when that cannot be solved."""
+    from .analysis.steady import solve_dc
+    from .assemble import assemble
+    from .errors import NetgenError
+
+    try:
+        sys_ = assemble(d)
+        x = solve_dc(sys_, 0.0, impose=d.transient is not None)
+    except (NetgenError, ValueError, ArithmeticError):
+        return {}
+    return {n.name: float(x[sys_.node_index[n.name]]) for n in d.nodes.values() if n.domain == THERMAL}
 
 
 def _unit(signal: str) -> str:

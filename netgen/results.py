@@ -48,10 +48,11 @@ class SignalEval:
             e = d.element(base)
             I = X[:, sys.branch_index[e.name]]
             Ta, Tb = self._node(X, e.a), self._node(X, e.b)
-            cond = e.conductance * (Ta - Tb)
+            S, R, K = e.values_at(0.5 * (Ta + Tb))
+            cond = K * (Ta - Tb)
             if side == "a":
-                return e.seebeck * Ta * I - 0.5 * I * I * e.resistance + cond
-            return e.seebeck * Tb * I + 0.5 * I * I * e.resistance + cond
+                return S * Ta * I - 0.5 * I * I * R + cond
+            return S * Tb * I + 0.5 * I * I * R + cond
         e = d.element(name)
         if kind == "Q":
             if isinstance(e, Link):

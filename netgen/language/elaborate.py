@@ -12,10 +12,10 @@ from .. import units as U
 from ..design import (
     ELECTRICAL, THERMAL, Audit, Capacitor, CurrentSource, Design, Expectation, Fixed, Heat,
     Inductor, Link, Loc, Node, Resistor, Signal, Steady, Switch, Tempco, Thermoelectric,
-    Transient, VoltageSource, Modes,
+    Transient, VoltageSource, Modes, Material,
 )
 from ..errors import NetgenError, NetgenErrors
-from ..expr import Const, Wave
+from ..expr import Const, Wave, evaluate
 from .grammar import parser
 from .quantities import ExprReader, SIGNAL_KINDS, Typed, read_quantity
 
@@ -29,7 +29,7 @@ _TOKEN_WORDS = {
 
 STATEMENTS = (
     "design let mass fixed link heat ground resistor capacitor inductor source switch "
-    "thermoelectric steady transient modes record expect audit"
+    "thermoelectric material steady transient modes record expect audit"
 ).split()
 
 
@@ -378,21 +378,93 @@ class Elaborator:
     def st_thermoelectric(self, t):
         name_tok, attrs = t.children
         name = self.element_name(name_tok)
-        at = self.attrs(attrs, ("pins", "sides", "seebeck", "resistance", "conductance"), "thermoelectric")
+        at = self.attrs(attrs, ("pins", "sides", "seebeck", "resistance", "conductance", "couples", "rated",
+                                "hottest"), "thermoelectric")
         for key, example in (("pins", "pins P N"), ("sides", "sides A B")):
             if key not in at:
                 raise self.err(name_tok, f"thermoelectric `{name}` needs `{example}`")
-        missing = [k for k in ("seebeck", "resistance", "conductance") if k not in at]
-        if missing:
-            raise self.err(name_tok, f"thermoelectric `{name}` needs {', '.join('`' + m + '`' for m in missing)}",
-                           "give the module's lumped values: seebeck S  resistance R  conductance K")
+        lumped = [k for k in ("seebeck", "resistance", "conductance") if k in at]
+        forms = [f for f, present in (("lumped", bool(lumped)), ("couples", "couples" in at),
+                                      ("rated", "rated" in at)) if present]
+        if len(forms) != 1:
+            raise self.err(name_tok, f"thermoelectric `{name}` needs exactly one way to give its values"
+                           + (f", not {' and '.join(forms)}" if forms else ""),
+                           "either `seebeck S resistance R conductance K`, or `couples N material M leg AREA "
+                           "LENGTH`, or `rated imax I vmax V dtmax DT at TEMP`")
         p, n = (self.node(x, ELECTRICAL) for x in at["pins"].children)
         a, b = (self.node(x, THERMAL) for x in at["sides"].children)
-        s = self.const(at["seebeck"].children[0], U.SEEBECK, "a Seebeck coefficient")
-        r = self.const(at["resistance"].children[0], U.RESISTANCE, "a module resistance", positive=True)
-        k = self.const(at["conductance"].children[0], U.THERMAL_CONDUCTANCE, "a module conductance", positive=True)
-        self.design.elements.append(Thermoelectric(
-            name, self.loc(name_tok), p=p, n=n, a=a, b=b, seebeck=s, resistance=r, conductance=k))
+        e = Thermoelectric(name, self.loc(name_tok), p=p, n=n, a=a, b=b, form=forms[0])
+        if forms[0] == "lumped":
+            missing = [k for k in ("seebeck", "resistance", "conductance") if k not in at]
+            if missing:
+                raise self.err(name_tok, f"thermoelectric `{name}` needs {', '.join('`' + m + '`' for m in missing)}",
+                               "give the module's lumped values: seebeck S  resistance R  conductance K")
+            e.seebeck = self.const(at["seebeck"].children[0], U.SEEBECK, "a Seebeck coefficient")
+            e.resistance = self.const(at["resistance"].children[0], U.RESISTANCE, "a module resistance", positive=True)
+            e.conductance = self.const(at["conductance"].children[0], U.THERMAL_CONDUCTANCE, "a module conductance",
+                                       positive=True)
+        elif forms[0] == "rated":
+            i_t, v_t, dt_t, th_t = at["rated"].children
+            imax = self.const(i_t, U.CURRENT, "imax", positive=True)
+            vmax = self.const(v_t, U.VOLTAGE, "vmax", positive=True)
+            dtmax = self.const(dt_t, U.TEMPERATURE, "dtmax", positive=True)
+            th = self.const(th_t, U.TEMPERATURE, "the rating temperature", positive=True)
+            if dtmax >= th:
+                raise self.err(dt_t, "dtmax must be smaller than the hot-side rating temperature")
+            # LANGUAGE.md form 3, the ideal-equation inversion of the ratings.
+            e.seebeck = vmax / th
+            e.resistance = vmax * (th - dtmax) / (th * imax)
+            e.conductance = vmax * imax * (th - dtmax) / (2 * th * dtmax)
+        else:
+            n_t, mat_tok, area_t, len_t = at["couples"].children
+            couples = self.const(n_t, U.NONE, "the number of couples", positive=True)
+            mat = self.design.materials.get(str(mat_tok))
+            if mat is None:
+                close = difflib.get_close_matches(str(mat_tok), list(self.design.materials), n=1)
+                raise self.err(mat_tok, f"unknown material `{mat_tok}`",
+                               f"did you mean `{close[0]}`?" if close else "define it first with `material NAME { ... }`")
+            area = self.const(area_t, U.AREA, "a leg area", positive=True)
+            length = self.const(len_t, U.LENGTH, "a leg length", positive=True)
+            from ..expr import Binary, Const as K_
+
+            def scaled(expr, factor):
+                return Binary("*", K_(factor), expr)
+
+            props = (scaled(mat.seebeck, 2 * couples), scaled(mat.resistivity, 2 * couples * length / area),
+                     scaled(mat.conductivity, 2 * couples * area / length))
+            values = [float(evaluate(x, T=300.0)) for x in props]
+            if any(not isinstance(x, Const) and x.uses_vars for x in (mat.seebeck, mat.resistivity, mat.conductivity)):
+                e.props = props
+            e.seebeck, e.resistance, e.conductance = values
+            if e.resistance <= 0 or e.conductance <= 0:
+                raise self.err(mat_tok, f"material `{mat.name}` gives a module resistance or conductance that is not positive")
+        if "hottest" in at:
+            e.hottest = self.const(at["hottest"].children[0], U.TEMPERATURE, "the hottest allowed side temperature",
+                                   positive=True)
+        self.design.elements.append(e)
+
+    def st_material(self, t):
+        name_tok, attrs = t.children
+        name = str(name_tok)
+        if name in self.design.materials:
+            raise self.err(name_tok, f"material `{name}` is already defined at line {self.design.materials[name].loc.line}")
+        at = self.attrs(attrs, ("seebeck", "resistivity", "conductivity"), "material")
+        missing = [k for k in ("seebeck", "resistivity", "conductivity") if k not in at]
+        if missing:
+            raise self.err(name_tok, f"material `{name}` needs {', '.join('`' + m + '`' for m in missing)}",
+                           "e.g. material bite { seebeck 200 uV/K  resistivity 1e-5 ohm*m  conductivity 1.5 W/(m*K) }")
+        exprs = []
+        for key, dim, what in (("seebeck", U.SEEBECK, "a Seebeck coefficient"),
+                               ("resistivity", U.RESISTIVITY, "a resistivity"),
+                               ("conductivity", U.CONDUCTIVITY, "a thermal conductivity")):
+            tree = at[key].children[0]
+            r = ExprReader(self.params, self.loc, variables={"T": U.TEMPERATURE})
+            typed = r.read(tree)
+            self.need_dim(tree, typed, (dim,), what)
+            if typed.expr.uses_time:
+                raise self.err(tree, f"{what} may depend on the temperature `T`, not on `time`")
+            exprs.append(typed.expr)
+        self.design.materials[name] = Material(name, self.loc(name_tok), *exprs)
 
     def st_steady(self, t):
         if self.design.steady:

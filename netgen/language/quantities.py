@@ -11,7 +11,7 @@ from lark import Token, Tree
 
 from .. import units as U
 from ..errors import NetgenError
-from ..expr import Binary, Const, Expr, Func, Shape, SignalRef, Time, Unary, evaluate
+from ..expr import Binary, Const, Expr, Func, Shape, SignalRef, Time, Unary, Var, evaluate
 
 _NUM = re.compile(r"^((?:[0-9]+(?:\.[0-9]+)?|\.[0-9]+)(?:[eE][+-]?[0-9]+)?)[ \t]*(.*)$")
 
@@ -53,8 +53,10 @@ def read_quantity(text: str) -> tuple[float, U.Dim, bool]:
 class ExprReader:
     """Turns expression trees into Typed values. `loc_of(tree)` gives a Loc for messages."""
 
-    def __init__(self, params: dict, loc_of, signals_ok: bool = False, signal_dim=None):
+    def __init__(self, params: dict, loc_of, signals_ok: bool = False, signal_dim=None,
+                 variables: dict | None = None):
         self.params = params  # name -> Typed (constant)
+        self.variables = variables or {}  # name -> Dim, e.g. {"T": TEMPERATURE} in a material
         self.loc_of = loc_of
         self.signals_ok = signals_ok
         self.signal_dim = signal_dim  # callback(kind, args, tree) -> Dim
@@ -65,7 +67,8 @@ class ExprReader:
 
     def read(self, tree) -> Typed:
         t = self._read(tree)
-        if not isinstance(t.expr, Const) and not t.expr.uses_time and not t.expr.uses_signals:
+        if (not isinstance(t.expr, Const) and not t.expr.uses_time and not t.expr.uses_signals
+                and not t.expr.uses_vars):
             t = Typed(Const(float(evaluate(t.expr))), t.dim, t.celsius)
         return t
 
@@ -125,6 +128,8 @@ class ExprReader:
         name = str(tree.children[0])
         if name == "time":
             return Typed(Time(), U.TIME)
+        if name in self.variables:
+            return Typed(Var(name), self.variables[name])
         if name == "pi":
             return Typed(Const(math.pi), U.NONE)
         if name in U.ABSOLUTE_CELSIUS:
@@ -238,6 +243,8 @@ class ExprReader:
 
 def _fold(e: Expr) -> Expr:
     """Constant-fold a node whose children are all constants."""
+    if isinstance(e, Shape):
+        return e
     kids = e.children()
     if kids and all(isinstance(k, Const) for k in kids):
         v = evaluate(e)
