@@ -118,6 +118,8 @@ def print_results(res: Results, out=None) -> None:
             w = res.waveforms[s]
             cells = [fmt(s, float(f(w)), d.celsius) for f in (np.min, np.max, lambda a: a[-1])]
             print(f"  {s:<{width}}  {cells[0]:>24}  {cells[1]:>24}  {cells[2]:>24}", file=out)
+    if res.figures:
+        print_figures(res, out)
     if res.modes is not None:
         print_modes(res, out)
     if res.checks:
@@ -130,6 +132,24 @@ def print_results(res: Results, out=None) -> None:
                   f"limit {_value(c.limit, c.unit, c.celsius)}{detail}", file=out)
         failed = sum(not c.passed for c in res.checks)
         print(f"  {len(res.checks) - failed} passed, {failed} failed", file=out)
+
+
+def print_figures(res: Results, out) -> None:
+    print(f"\nmodules at the {res.figures_at}", file=out)
+    for f in res.figures:
+        head = f"  {f['module']}: {f['mode']}, I = {f['current']:.4g} A, Z·T = {f['ZT']:.3f}"
+        if f["mode"] == "cooling":
+            best = f" (ideal best {f['cop_max']:.3f} at {f['current_best_cop']:.3g} A)" if "cop_max" in f else ""
+            print(f"{head}, cooling {f['cooling_power']:.4g} W, COP {f['cop']:.3f}{best}; "
+                  f"ideal limits I_max {f['current_max']:.3g} A, ΔT_max {f['dt_max']:.3g} K", file=out)
+        elif f["mode"] == "generating":
+            print(f"{head}, delivers {f['electrical_power']:.4g} W at efficiency {100 * f['efficiency']:.2f} % "
+                  f"(ideal best {100 * f['efficiency_max']:.2f} %; matched load would give "
+                  f"{f['power_matched']:.4g} W)", file=out)
+        else:
+            print(f"{head}, electrical power {f['power']:.4g} W", file=out)
+    for c in res.cautions:
+        print(f"  caution: {c}", file=out)
 
 
 def print_modes(res: Results, out) -> None:
@@ -160,6 +180,10 @@ def summary(res: Results) -> dict:
         out["transient_stats"] = dict(res.stats, points=int(len(res.time)), until=float(res.time[-1]))
     if res.modes is not None:
         out["modes"] = [m.as_dict() for m in res.modes]
+    if res.figures:
+        out["modules"] = res.figures
+    if res.cautions:
+        out["cautions"] = res.cautions
     if res.checks:
         out["expectations"] = [
             {"text": c.text, "measured": c.measured, "limit": c.limit, "unit": c.unit, "passed": c.passed}

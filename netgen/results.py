@@ -128,6 +128,9 @@ class Results:
     stats: dict = field(default_factory=dict)
     initial: dict[str, float] = field(default_factory=dict)
     modes: list | None = None  # analysis.modes.Mode, slowest first
+    figures: list[dict] = field(default_factory=list)  # per module, see merit.figures
+    figures_at: str = ""
+    cautions: list[str] = field(default_factory=list)
 
     def __getitem__(self, signal: str) -> np.ndarray:
         return self.waveforms[signal]

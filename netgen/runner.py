@@ -7,7 +7,8 @@ from .analysis.modes import modes
 from .analysis.steady import solve_dc
 from .analysis.transient import integrate
 from .assemble import assemble
-from .design import Design, Modes
+from .design import Design, Modes, Thermoelectric
+from .merit import cautions, figures
 from .errors import NetgenError
 from .audits import energy_audit, entropy_audit, needed_signals
 from .results import Check, Results, SignalEval, evaluate_expectation, refs, signal_texts
@@ -64,6 +65,19 @@ def run_design(d: Design, progress=None) -> Results:
         return sig(text, X, Xd, t)
 
     res.checks = [evaluate_expectation(e, res, signal_of) for e in d.expectations]
+    if d.of_kind(Thermoelectric):
+        where = "transient" if "transient" in states else "steady"  # the driven state, when there is one
+
+        def final(text):
+            v = signal_of(where, text)
+            return float(np.atleast_1d(v)[-1])
+
+        def every(text):
+            return np.concatenate([np.atleast_1d(signal_of(a, text)) for a in states])
+
+        res.figures = figures(d, final)
+        res.figures_at = "steady state" if where == "steady" else "end of the transient"
+        res.cautions = cautions(d, every)
     res.checks += [_audit(d, a, states.get("transient"), sig) for a in d.audits]
     return res
 

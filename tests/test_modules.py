@@ -154,3 +154,52 @@ record T(cold) V(p)
     assert st["T(cold)"] == pytest.approx(Tc, abs=1e-8)
     S, R, K = props(0.5 * (Tc + Th))
     assert st["V(p)"] == pytest.approx(I * R + S * (Th - Tc), rel=1e-9)
+
+
+def test_run_reports_cop_and_ideal_limits_for_a_cooler():
+    """COP = Qc/(V·I) (CHECKS 3) beside COP_max and I_opt of CHECKS 5, at the solved temperatures."""
+    res = netgen.load("""
+fixed cold 285 K
+fixed hot 305 K
+ground g
+source drive p g 2 A
+thermoelectric m pins p g sides cold hot { seebeck 50 mV/K  resistance 2 ohm  conductance 0.5 W/K }
+steady
+""").run()
+    (f,) = res.figures
+    S, R, K, I, Tc, Th = 0.05, 2.0, 0.5, 2.0, 285.0, 305.0
+    qc = S * I * Tc - 0.5 * I * I * R - K * (Th - Tc)
+    V = I * R + S * (Th - Tc)
+    assert f["mode"] == "cooling"
+    assert f["cop"] == pytest.approx(qc / (V * I), rel=1e-9)
+    Z, Tm, dT = S * S / (R * K), 295.0, 20.0
+    root = math.sqrt(1 + Z * Tm)
+    assert f["cop_max"] == pytest.approx((Tc / dT) * (root - Th / Tc) / (root + 1), rel=1e-12)
+    assert f["current_best_cop"] == pytest.approx(S * dT / (R * (root - 1)), rel=1e-12)
+    assert f["dt_max"] == pytest.approx(0.5 * Z * Tc * Tc, rel=1e-12)
+    assert res.cautions == []
+
+
+def test_run_reports_generator_efficiency_and_cautions():
+    """η = P_load/Q_hot against η_max of CHECKS 6; a side above `hottest` and one below 0 °C
+    are both cautioned (frost and overheating)."""
+    res = netgen.load("""
+fixed hot 400 K
+fixed cold 270 K
+ground g
+thermoelectric m pins p g sides hot cold { seebeck 40 mV/K  resistance 1.5 ohm  conductance 0.4 W/K  hottest 120 degC }
+resistor load p g 1.5 ohm
+steady
+""").run()
+    (f,) = res.figures
+    S, R, K, Th, Tc = 0.04, 1.5, 0.4, 400.0, 270.0
+    I = S * (Th - Tc) / (2 * R)
+    q_hot = S * Th * I - 0.5 * I * I * R + K * (Th - Tc)
+    assert f["mode"] == "generating"
+    assert f["efficiency"] == pytest.approx(I * I * R / q_hot, rel=1e-9)
+    Z, Tm, dT = S * S / (R * K), 335.0, 130.0
+    root = math.sqrt(1 + Z * Tm)
+    assert f["efficiency_max"] == pytest.approx((dT / Th) * (root - 1) / (root + Tc / Th), rel=1e-12)
+    assert f["efficiency"] <= f["efficiency_max"]
+    assert any("above its stated limit" in c for c in res.cautions)
+    assert any("below freezing" in c for c in res.cautions)

@@ -1,0 +1,71 @@
+"""Figures of merit of each module (COP or efficiency beside the ideal limits) and safety cautions.
+
+The ideal limits are those of CHECKS.md 4-6 (CRC Handbook of Thermoelectrics; Ioffe), for the
+module's S, R, K at the solved side temperatures.
+"""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from .design import Design, Thermoelectric
+
+FREEZING = 273.15
+
+
+def figures(d: Design, value) -> list[dict]:
+    """`value(signal)` gives a solved scalar (the steady state, or the end of the transient)."""
+    out = []
+    for m in d.of_kind(Thermoelectric):
+        Ta, Tb = value(f"T({m.a})"), value(f"T({m.b})")
+        I = value(f"I({m.name})")
+        P = value(f"P({m.name})")
+        Qa, Qb = value(f"Q({m.name}.a)"), value(f"Q({m.name}.b)")
+        S, R, K = (float(v) for v in m.values_at(0.5 * (Ta + Tb)))
+        Z = S * S / (R * K)
+        Tc, Th = min(Ta, Tb), max(Ta, Tb)
+        Tm, dT = 0.5 * (Tc + Th), Th - Tc
+        root = math.sqrt(1 + Z * Tm)
+        row = {"module": m.name, "current": I, "power": P, "Z": Z, "ZT": Z * Tm,
+               "cold_side": m.a if Ta <= Tb else m.b, "T_cold": Tc, "T_hot": Th}
+        cold_heat = Qa if Ta <= Tb else -Qb  # heat taken from the colder side
+        if abs(I) < 1e-6 * S * Tc / R:
+            row["mode"] = "idle"
+        elif P > 0 and cold_heat > 0:
+            row["mode"] = "cooling"
+            row["cop"] = cold_heat / P
+            row["cooling_power"] = cold_heat
+            if dT > 0:
+                row["cop_max"] = (Tc / dT) * (root - Th / Tc) / (root + 1)
+                row["current_best_cop"] = S * dT / (R * (root - 1))
+            row["current_max"] = S * Tc / R
+            row["dt_max"] = 0.5 * Z * Tc * Tc
+        elif P < 0 and dT > 0:
+            hot_heat = Qa if Ta > Tb else -Qb  # heat taken from the hotter side
+            row["mode"] = "generating"
+            row["efficiency"] = -P / hot_heat if hot_heat > 0 else float("nan")
+            row["efficiency_max"] = (dT / Th) * (root - 1) / (root + Tc / Th)
+            row["power_matched"] = (S * dT) ** 2 / (4 * R)
+            row["electrical_power"] = -P
+        else:
+            row["mode"] = "heating"
+        out.append(row)
+    return out
+
+
+def cautions(d: Design, series) -> list[str]:
+    """`series(signal)` gives every solved value of a signal (steady and transient together)."""
+    notes = []
+    for m in d.of_kind(Thermoelectric):
+        for side in (m.a, m.b):
+            T = np.asarray(series(f"T({side})"))
+            if len(T) == 0:
+                continue
+            if m.hottest is not None and float(T.max()) > m.hottest:
+                notes.append(f"module `{m.name}`: side `{side}` reaches {T.max() - FREEZING:.1f} °C, above its "
+                             f"stated limit of {m.hottest - FREEZING:.1f} °C; it needs a better heat sink or less drive")
+            if float(T.min()) < FREEZING:
+                notes.append(f"module `{m.name}`: side `{side}` goes down to {T.min() - FREEZING:.1f} °C, below "
+                             "freezing: frost and condensation can form on the cold side and the electronics on it")
+    return list(dict.fromkeys(notes))
