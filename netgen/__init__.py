@@ -14,7 +14,8 @@ def load(path_or_text, overrides: dict[str, str] | None = None) -> Design:
     """Read a design from a path or from .etn text (anything containing a newline is text)."""
     from .language import load as _load, load_text
 
-    if isinstance(path_or_text, Path) or ("\n" not in str(path_or_text) and Path(str(path_or_text)).suffix == ".etn"):
+    text = str(path_or_text)
+    if isinstance(path_or_text, Path) or ("\n" not in text and (Path(text).suffix == ".etn" or Path(text).is_file())):
         return _load(path_or_text, overrides)
     return load_text(str(path_or_text), "<text>", overrides)
 

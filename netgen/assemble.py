@@ -7,6 +7,7 @@ charge) leaving a node, or a branch equation.
 """
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -88,7 +89,13 @@ class System:
     def b(self, t: float, left: bool = False) -> np.ndarray:
         out = self.b_const.copy()
         for row, sign, w in self.waves:
-            out[row] += sign * w.at(t, left)
+            v = w.at(t, left)
+            if not math.isfinite(v):
+                from .errors import SolveError
+
+                raise SolveError(f"the source value on {self.names[row]} is not a finite number at t = {t:.6g} s",
+                                 None, "check the expression for a division by zero or a log of zero")
+            out[row] += sign * v
         return out
 
     def corners(self, t_end: float) -> list[float]:

@@ -211,10 +211,11 @@ class Signal:
     kind: str  # T V I Q P
     args: tuple[str, ...]
     loc: Loc
+    written: str = ""  # as it stands in the file, e.g. `V(a,b)`: the column heading
 
     @property
     def text(self) -> str:
-        return f"{self.kind}({', '.join(self.args)})"
+        return self.written or f"{self.kind}({', '.join(self.args)})"
 
 
 @dataclass

@@ -84,9 +84,10 @@ class Binary(Expr):
             return x - y
         if self.op == "*":
             return x * y
-        if self.op == "/":
-            return x / y
-        return np.power(x, y) if isinstance(x, np.ndarray) else x**y
+        with np.errstate(all="ignore"):  # 1/0 and 0^-1 give inf; the callers report non-finite values
+            if self.op == "/":
+                return np.divide(x, y)
+            return np.power(np.float64(x) if not isinstance(x, np.ndarray) else x, y)
 
     def children(self):
         return (self.a, self.b)
@@ -115,7 +116,8 @@ class Func(Expr):
             for v in vals[1:]:
                 out = np.maximum(out, v)
             return out
-        return _FUNCS[self.name](vals[0])
+        with np.errstate(all="ignore"):
+            return _FUNCS[self.name](vals[0])
 
     def children(self):
         return self.args

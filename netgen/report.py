@@ -192,6 +192,17 @@ def summary(res: Results) -> dict:
     return out
 
 
+def _strict(value):
+    """JSON has no NaN or infinity: those become null."""
+    if isinstance(value, float) and not math.isfinite(value):
+        return None
+    if isinstance(value, dict):
+        return {k: _strict(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_strict(v) for v in value]
+    return value
+
+
 def transient_csv(res: Results) -> str:
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\n")
@@ -210,7 +221,7 @@ def write_outputs(res: Results, out_dir: Path) -> list[Path]:
         write_atomic(p, transient_csv(res))
         written.append(p)
     p = out_dir / "summary.json"
-    write_atomic(p, json.dumps(summary(res), indent=2, allow_nan=True) + "\n")
+    write_atomic(p, json.dumps(_strict(summary(res)), indent=2, allow_nan=False) + "\n")
     written.append(p)
     return written
 

@@ -35,7 +35,7 @@ class SignalEval:
         return X[:, i] if i < self.sys.n else np.zeros(X.shape[0])
 
     def __call__(self, text: str, X, Xdot, t, left: bool = False) -> np.ndarray:
-        """`left` takes the limit from before at source corners (for integrals over steps)."""
+        """`left` (one flag or one per sample) takes the limit from before at source corners."""
         kind, inner = text[0], text[2:-1]
         args = [a.strip() for a in inner.split(",")]
         d, sys = self.d, self.sys
@@ -58,7 +58,7 @@ class SignalEval:
             if isinstance(e, Link):
                 return e.conductance * (self._node(X, e.a) - self._node(X, e.b))
             if isinstance(e, Heat):
-                return np.array([e.power.at(float(tt), left) for tt in np.atleast_1d(t)])
+                return np.array([e.power.at(float(tt), lf) for tt, lf in _pairs(t, left)])
             if isinstance(e, Fixed):
                 return X[:, sys.branch_index[e.name]]
         current = self._current(e, X, Xdot, t, left)
@@ -77,7 +77,7 @@ class SignalEval:
         if isinstance(e, (Inductor, VoltageSource, Thermoelectric)):
             return X[:, sys.branch_index[e.name]]
         if isinstance(e, CurrentSource):
-            return np.array([e.value.at(float(tt), left) for tt in np.atleast_1d(t)])
+            return np.array([e.value.at(float(tt), lf) for tt, lf in _pairs(t, left)])
         u = self._node(X, e.a) - self._node(X, e.b)
         if isinstance(e, Resistor):
             r = np.full(X.shape[0], e.resistance)
@@ -89,9 +89,16 @@ class SignalEval:
             ud = self._node(Xdot, e.a) - self._node(Xdot, e.b)
             return e.capacitance * ud
         if isinstance(e, Switch):
-            g = np.array([1.0 / (e.r_on if _closed(e, float(tt), left) else e.r_off) for tt in np.atleast_1d(t)])
+            g = np.array([1.0 / (e.r_on if _closed(e, float(tt), lf) else e.r_off) for tt, lf in _pairs(t, left)])
             return g * u
         raise KeyError(e.name)
+
+
+def _pairs(t, left):
+    """(time, from-the-left flag) for every sample; `left` is one flag or one per sample."""
+    t = np.atleast_1d(t)
+    flags = np.broadcast_to(np.asarray(left, dtype=bool), t.shape)
+    return zip(t.tolist(), flags.tolist())
 
 
 def _closed(sw: Switch, t: float, left: bool) -> bool:

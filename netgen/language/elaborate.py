@@ -20,6 +20,11 @@ from .grammar import parser
 from .quantities import ExprReader, SIGNAL_KINDS, Typed, read_quantity
 
 MAX_ERRORS = 20
+NOT_YET = {
+    "part": "write the part's statements out in full for now",
+    "use": "write the part's statements out in full for now",
+    "include": "paste the included file's statements into this one for now",
+}
 
 _TOKEN_WORDS = {
     "_NL": "end of line", "NAME": "a name", "QUANTITY": "a number", "LPAR": "`(`", "RPAR": "`)`",
@@ -97,10 +102,10 @@ class Elaborator:
                 getattr(self, "st_" + stmt.data)(stmt)
             except NetgenError as e:
                 self.errors.append(e)
-                if len(self.errors) >= MAX_ERRORS:
-                    break
+                if len(self.errors) >= MAX_ERRORS or e.loc is None:
+                    break  # a --set error has no place in the file; what follows would only echo it
         if not self.errors:
-            self.finish_signals()
+            self.finish()
         unused = set(self.overrides) - self.used_overrides
         for name in sorted(unused):
             close = difflib.get_close_matches(name, list(self.params), n=1)
@@ -139,6 +144,8 @@ class Elaborator:
             prev = text[: col - 1].rstrip()
             if tok.type == "NAME" and prev and (prev[-1].isdigit()):
                 hint = _unit_hint(str(tok))
+            elif (col == 1 or not prev) and str(tok) in NOT_YET:
+                return NetgenError(f"`{tok}` is not supported yet by this version of netgen", loc, NOT_YET[str(tok)])
             elif col == 1 or not prev:
                 close = difflib.get_close_matches(str(tok), STATEMENTS, n=1)
                 hint = (f"did you mean `{close[0]}`?" if close else
@@ -242,6 +249,8 @@ class Elaborator:
 
     # ---- statements --------------------------------------------------------------
     def st_design(self, t):
+        if self.design.title is not None:
+            raise self.err(t, "`design` is given twice", "one title per file")
         self.design.title = str(t.children[0])[1:-1]
 
     def st_let(self, t):
@@ -491,7 +500,11 @@ class Elaborator:
             names = tuple(str(c) for c in s.children[1:] if c is not None)
             if kind not in SIGNAL_KINDS:
                 raise self.err(s, f"unknown signal `{kind}(...)`", "signals are T(node) V(node) I(elem) Q(elem) P(elem)")
-            sig = Signal(kind, names, self.loc(s))
+            line = self.lines[s.meta.line - 1] if s.meta.line == s.meta.end_line else ""
+            written = line[s.meta.column - 1: s.meta.end_column - 1] if line else ""
+            sig = Signal(kind, names, self.loc(s), written)
+            if any(r.text == sig.text for r in self.design.records):
+                continue  # recorded once is enough
             self.design.records.append(sig)
             self.pending_signals.append((kind, names, s))
 
@@ -513,7 +526,11 @@ class Elaborator:
         cmp = str(cmp_tok)
         if cmp == "=" and within is None:
             raise self.err(cmp_tok, "`=` needs `within TOL`", "e.g. `= 4 degC within 0.5 K`")
+        if cmp != "=" and within is not None:
+            raise self.err(within_t, f"`within` only goes with `=`, not with `{cmp}`")
         between = None
+        if b1 is not None and agg == "at":
+            raise self.err(b1, "`between` does not go with `at TIME`", "use `max`, `min`, `mean` or `final` over an interval")
         if b1 is not None:
             between = (self.const(b1, U.TIME, "a time"), self.const(b2, U.TIME, "a time"))
             if between[1] < between[0]:
@@ -541,6 +558,32 @@ class Elaborator:
     def signal_dim(self, kind, names, tree) -> U.Dim:
         self.pending_signals.append((kind, names, tree))
         return {"T": U.TEMPERATURE, "V": U.VOLTAGE, "I": U.CURRENT, "Q": U.POWER, "P": U.POWER}[kind]
+
+    def finish(self):
+        """What can only be judged once the whole file is read."""
+        self.finish_signals()
+        d = self.design
+        tr = d.transient
+        for e in d.expectations:
+            needs = "steady" if e.agg == "steady" else "transient"
+            if (needs == "steady" and d.steady is None) or (needs == "transient" and tr is None):
+                self.errors.append(NetgenError(f"this expectation reads the `{needs}` analysis, which the file "
+                                               "does not have", e.loc, f"add `{needs}`" + (" until TIME" if needs == "transient" else "")))
+                continue
+            if tr is not None and e.at_time is not None and e.at_time > tr.until:
+                self.errors.append(NetgenError(f"`at {e.at_time:g} s` is after the end of the transient ({tr.until:g} s)",
+                                               e.loc, "read an instant inside the run"))
+            if tr is not None and e.between is not None and e.between[0] > tr.until:
+                self.errors.append(NetgenError(f"the interval starts after the end of the transient ({tr.until:g} s)", e.loc))
+        for a in d.audits:
+            if tr is None:
+                self.errors.append(NetgenError(f"`audit {a.kind}` needs a `transient`", a.loc, "add `transient until TIME`"))
+        fixed = {e.node: e for e in d.elements if isinstance(e, Fixed)}
+        for e in d.elements:
+            if not isinstance(e, Fixed) and e.name in fixed:
+                self.errors.append(NetgenError(
+                    f"`{e.name}` names both an element and a reservoir node, so `Q({e.name})` would be ambiguous",
+                    e.loc, "rename the element"))
 
     def finish_signals(self):
         """Signals may name things defined later in the file, so they are checked at the end."""

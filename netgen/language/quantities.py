@@ -142,6 +142,10 @@ class ExprReader:
         hint = f"did you mean `{close[0]}`?" if close else "define it first with `let NAME = VALUE`"
         if U.is_unit_word(name):
             hint = f"`{name}` is a unit: write it right after a number, e.g. `1 {name}`"
+        elif not close:
+            unit_hint = U._suggest(name)
+            if unit_hint and unit_hint.startswith("did you mean"):
+                hint = unit_hint.replace("did you mean", "if this is part of a unit, did you mean")
         raise self.err(tree, f"unknown name `{name}`", hint)
 
     def _call(self, tree) -> Typed:

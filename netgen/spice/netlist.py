@@ -1,0 +1,478 @@
+"""Design → a plain SPICE3 netlist in which kelvin are volts and watts are amperes."""
+from __future__ import annotations
+
+import textwrap
+from collections import defaultdict
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from ..analysis.steady import solve_dc
+from ..assemble import assemble
+from ..design import (
+    ELECTRICAL, THERMAL, Capacitor, CurrentSource, Design, Fixed, Heat, Inductor, Link, Resistor,
+    Switch, Thermoelectric, VoltageSource,
+)
+from ..errors import NetgenError
+from ..expr import Binary, Const, Expr, Func, Shape, Time, Unary, Var, Wave, evaluate
+
+EDGE = 1e-3  # a jump becomes a linear edge this many output steps wide
+SAMPLES = 1000  # evenly spaced points of a sampled PWL over the run, besides its corners
+MAX_PRODUCT = 8  # integer powers up to this are written as products (ngspice's `^` takes |base|)
+# Node values are ~300 K: reltol 1e-6 is 0.3 mK there, vntol 1 uK / 1 uV for values near zero.
+OPTIONS = ".options reltol=1e-9 abstol=1e-12 vntol=1e-9 chgtol=1e-14 method=gear"
+
+
+def num(x: float) -> str:
+    """A plain SI number that reads back to the same float (no scale suffixes)."""
+    return repr(float(x))
+
+
+def _factor(x: float) -> str:
+    """A number to sit inside an expression: negative ones in parentheses."""
+    return num(x) if x >= 0 else f"({num(x)})"
+
+
+def _unique(names, prefix: str) -> dict[str, str]:
+    """Our name → prefix + lower-case name, `.` as `__`. SPICE ignores case, so of names equal
+    after that, one already spelt so keeps it (else the first in sorted order); the others
+    take _2, _3 ... in sorted order, skipping any name already in use."""
+    groups: dict[str, list[str]] = defaultdict(list)
+    base = lambda n: n.replace(".", "__").lower()
+    for n in sorted(set(names), key=lambda n: (base(n) != n, n)):
+        groups[prefix + base(n)].append(n)
+    taken, out = set(groups), {}
+    for base, members in groups.items():
+        out[members[0]] = base
+        k = 1
+        for n in members[1:]:
+            k += 1
+            while f"{base}_{k}" in taken:
+                k += 1
+            out[n] = f"{base}_{k}"
+            taken.add(out[n])
+    return out
+
+
+@dataclass
+class Names:
+    """How our names appear in the netlist. `signals` maps our signal text to the simulator's
+    vector (with a leading `-` where the signs differ); `rows` is the header's name table."""
+
+    nodes: dict[str, str]
+    stems: dict[str, str]
+    signals: dict[str, str] = field(default_factory=dict)
+    rows: list[tuple[str, str]] = field(default_factory=list)
+
+
+def names(d: Design) -> Names:
+    """The deterministic name map of a design (nodes, and element stems after the kind tag)."""
+    thermal = [n.name for n in d.nodes.values() if n.domain == THERMAL]
+    electrical = [n.name for n in d.nodes.values() if n.domain == ELECTRICAL and n.name not in d.grounds]
+    nodes = {**_unique(thermal, "t_"), **_unique(electrical, "e_"), **{g: "0" for g in d.grounds}}
+    return Names(nodes, _unique([e.name for e in d.elements], ""))
+
+
+def _vdiff(a: str, b: str) -> str:
+    """V(a) − V(b) in the plainest B-source form; node 0 is written out of it."""
+    if b == "0":
+        return f"V({a})"
+    if a == "0":
+        return f"(-V({b}))"
+    return f"(V({a})-V({b}))"
+
+
+def bexpr(e: Expr, var: dict[str, str] | None = None) -> str:
+    """An Expr of `time` (or of variables given as B-source text in `var`, such as a material's
+    `T`) as a SPICE3 B-source expression, fully parenthesised."""
+    rec = lambda x: bexpr(x, var)
+    if isinstance(e, Const):
+        return _factor(e.v)
+    if isinstance(e, Time):
+        return "time"
+    if isinstance(e, Var):
+        return (var or {})[e.name]
+    if isinstance(e, Unary):
+        return f"(-{rec(e.a)})"
+    if isinstance(e, Binary):
+        if e.op == "^":
+            return _power(rec(e.a), e.b, var)
+        return f"({rec(e.a)}{e.op}{rec(e.b)})"
+    if isinstance(e, Func):
+        args = [rec(a) for a in e.args]
+        if e.name in ("min", "max"):  # SPICE3 has no min/max: (x+y ∓ |x−y|)/2
+            sign = "-" if e.name == "min" else "+"
+            out = args[0]
+            for y in args[1:]:
+                out = f"(0.5*({out}+{y}{sign}abs({out}-{y})))"
+            return out
+        return f"{'ln' if e.name == 'log' else e.name}({args[0]})"  # our log is the natural one
+    raise TypeError(f"{type(e).__name__} has no B-source form")  # shapes are sampled instead
+
+
+def _power(base: str, b: Expr, var) -> str:
+    if isinstance(b, Const) and b.v == int(b.v) and abs(b.v) <= MAX_PRODUCT:
+        n = int(b.v)
+        if n == 0:
+            return "1"
+        prod = "(" + "*".join([base] * abs(n)) + ")"
+        return prod if n > 0 else f"(1/{prod})"
+    return f"({base}^{bexpr(b, var)})"
+
+
+class _Writer:
+    """Collects element lines, the name table and the header notes while walking the design."""
+
+    def __init__(self, d: Design):
+        self.d = d
+        self.names = names(d)
+        tr = d.transient
+        self.until = tr.until if tr else self._horizon()
+        self.step = (tr.step if tr and tr.step else self.until / 500)
+        self.edge = EDGE * self.step
+        self.lines: list[str] = []
+        self.models: list[str] = []
+        self.notes: set[str] = set()
+        self.internal: dict[str, tuple] = {}  # netlist node → how to get its value from a state
+        self.ics: list[tuple[int, tuple[str, ...]]] = []  # (line index, our names whose value is IC=)
+
+    def _horizon(self) -> float:
+        """Without a transient, time shapes are still written out, to twice their last event."""
+        ends = [_span(x) for e in self.d.elements for w in _waves(e) for x in w.expr.walk()
+                if isinstance(x, Shape)]
+        return 2 * max(ends) if ends and max(ends) > 0 else 1.0
+
+    def node(self, name: str) -> str:
+        return self.names.nodes[name]
+
+    def row(self, spice: str, ours: str) -> None:
+        self.names.rows.append((spice, ours))
+
+    def add(self, *parts, ic: tuple[str, ...] = ()) -> None:
+        """One element line; `ic` names the node(s) or branch whose start value it gets as IC=."""
+        if ic:
+            self.ics.append((len(self.lines), ic))
+        self.lines.append(" ".join(str(p) for p in parts))
+
+    # ---- time-varying values ----------------------------------------------------------
+    def source(self, kind: str, tag: str, stem: str, np_: str, nn: str, w: Wave) -> str:
+        """Write a source (kind "V" or "I") of wave `w`: independent, or a B source for an
+        expression of time with no shapes in it. Returns its name."""
+        e = w.expr
+        if not w.constant and not any(isinstance(x, Shape) for x in e.walk()):
+            name = f"b{tag or kind.lower()}_{stem}"
+            self.add(name, np_, nn, f"{kind}={bexpr(e)}")
+            return name
+        name = f"{kind.lower()}{tag}_{stem}"
+        self.add(name, np_, nn, self.value(w))
+        return name
+
+    def value(self, w: Wave) -> str:
+        v0 = w.at(0.0)
+        head = f"DC {num(v0)}"
+        e = w.expr
+        if w.constant:
+            return head
+        if isinstance(e, Shape) and e.name == "pulse":
+            return f"{head} {self.pulse(*e.args)}"
+        if isinstance(e, Shape) and e.name == "sine":
+            off, amp, freq = e.args  # SPICE's SIN reads a zero frequency as 1/TSTOP: keep it DC
+            return head if freq == 0 or amp == 0 else f"{head} SIN({num(off)} {num(amp)} {num(freq)})"
+        if isinstance(e, Shape):
+            pts = _shape_points(e)
+        else:
+            self.notes.add("sampled")
+            pts = self._samples(w)
+        pts = [(0.0, v0)] + [(t, v) for t, v in pts if t > 0]
+        if all(v == v0 for _, v in pts):
+            return head
+        return f"{head} {self.pwl(pts)}"
+
+    def _samples(self, w: Wave) -> list[tuple[float, float]]:
+        """A shape inside an expression: its corners (both sides) and a dense grid between."""
+        cs = np.array(w.corners(self.until))
+        grid = np.union1d(np.linspace(0.0, self.until, SAMPLES + 1), cs)
+        right = np.broadcast_to(evaluate(w.expr, grid), grid.shape)
+        left = np.broadcast_to(evaluate(w.expr, cs, left=True), cs.shape) if len(cs) else []
+        before = dict(zip(cs.tolist(), np.asarray(left).tolist()))
+        pts = []
+        for t, v in zip(grid.tolist(), right.tolist()):
+            if t in before:
+                pts.append((t, before[t]))
+            pts.append((t, v))
+        return pts
+
+    def pwl(self, pts: list[tuple[float, float]]) -> str:
+        """PWL through the points; a repeated time (a jump) becomes an edge centred on it whose
+        ends sit on the segments either side, so the integral (heat, charge) stays the ideal
+        jump's to second order in the edge width."""
+        runs: list[tuple[float, float, float]] = []  # (time, value before, value after)
+        for t, v in pts:
+            if runs and runs[-1][0] == t:
+                runs[-1] = (t, runs[-1][1], v)
+            else:
+                runs.append((t, v, v))
+        out: list[tuple[float, float]] = []
+        for i, (t, v1, v2) in enumerate(runs):
+            if v1 == v2 or i == 0:
+                out.append((t, v2))
+                continue
+            self.notes.add("edge")
+            tp, _, vp = runs[i - 1]
+            tn, vn, _ = runs[i + 1] if i + 1 < len(runs) else (np.inf, v2, v2)
+            h = min(self.edge / 2, (t - tp) / 3, (tn - t) / 3)
+            after = v2 if tn == np.inf else v2 + (vn - v2) * h / (tn - t)
+            out += [(t - h, v1 - (v1 - vp) * h / (t - tp)), (t + h, after)]
+        text = [f"{num(t)} {num(v)}" for t, v in _thin(out)]
+        rows = [" ".join(text[i:i + 4]) for i in range(0, len(text), 4)]
+        return "PWL(" + "\n+ ".join(rows) + ")"
+
+    def pulse(self, low, high, delay, rise, fall, width, period) -> str:
+        """PULSE in our argument order. SPICE reads a zero rise, fall or width as TSTEP or TSTOP,
+        so instantaneous edges get the tiny edge, centred where the delay leaves room."""
+        e = self.edge
+        td = delay - e / 2 if rise == 0 and delay >= e / 2 else delay
+        tr = rise if rise > 0 else e
+        tf = fall if fall > 0 else e
+        top_end = delay + rise + width - (e / 2 if fall == 0 else 0.0)
+        pw = max(top_end - (td + tr), e * 1e-3)
+        per = period if period > 0 else 2 * (delay + rise + width + fall + self.until)
+        if rise == 0 or fall == 0:
+            self.notes.add("edge")
+        return "PULSE(" + " ".join(num(x) for x in (low, high, td, tr, tf, pw, per)) + ")"
+
+    # ---- elements ------------------------------------------------------------------------
+    def write(self) -> None:
+        d, nm = self.d, self.names
+        for n in d.nodes.values():
+            if n.capacity is not None:
+                name = "cmass_" + nm.nodes[n.name][2:]
+                self.add(name, nm.nodes[n.name], 0, num(n.capacity), ic=(n.name,))
+                self.row(name, f"mass {n.name}: heat capacity, J/K")
+        for e in d.elements:
+            getattr(self, "el_" + type(e).__name__.lower())(e, nm.stems[e.name])
+
+    def el_link(self, e: Link, s: str) -> None:
+        self.add(f"rlink_{s}", self.node(e.a), self.node(e.b), num(1.0 / e.conductance))
+        self.row(f"rlink_{s}", f"link {e.name}: thermal resistance, K/W")
+
+    def el_fixed(self, e: Fixed, s: str) -> None:
+        name = self.source("V", "fix", s, self.node(e.node), "0", e.temperature)
+        self.row(name, f"fixed {e.name}: reservoir temperature, K")
+        self.names.signals[f"Q({e.name})"] = f"-I({name})"  # SPICE's branch current enters at +
+
+    def el_heat(self, e: Heat, s: str) -> None:
+        name = self.source("I", "heat", s, "0", self.node(e.node), e.power)  # pushes into the node
+        self.row(name, f"heat {e.name}: heat input, W")
+
+    def el_resistor(self, e: Resistor, s: str) -> None:
+        a, b = self.node(e.a), self.node(e.b)
+        if e.heats is None and e.tempco is None:
+            self.add(f"r_{s}", a, b, num(e.resistance))
+            self.row(f"r_{s}", f"resistor {e.name}")
+            return
+        r = num(e.resistance)
+        if e.tempco:
+            tc = e.tempco
+            r = f"({r}*(1+{_factor(tc.alpha)}*(V({self.node(tc.node)})-{num(tc.ref)})))"
+        u = _vdiff(a, b)
+        self.add(f"bres_{s}", a, b, f"I={u}/{r}")
+        self.row(f"bres_{s}", f"resistor {e.name}: current through R(T)")
+        if e.heats:
+            self.add(f"bjoule_{s}", 0, self.node(e.heats), f"I={u}*{u}/{r}")
+            self.row(f"bjoule_{s}", f"resistor {e.name}: Joule heat into {e.heats}, W")
+
+    def el_capacitor(self, e: Capacitor, s: str) -> None:
+        self.add(f"c_{s}", self.node(e.a), self.node(e.b), num(e.capacitance), ic=(e.a, e.b))
+        self.row(f"c_{s}", f"capacitor {e.name}")
+
+    def el_inductor(self, e: Inductor, s: str) -> None:
+        self.add(f"l_{s}", self.node(e.a), self.node(e.b), num(e.inductance), ic=(e.name,))
+        self.row(f"l_{s}", f"inductor {e.name}")
+        self.names.signals[f"I({e.name})"] = f"I(l_{s})"
+
+    def el_voltagesource(self, e: VoltageSource, s: str) -> None:
+        name = self.source("V", "", s, self.node(e.a), self.node(e.b), e.value)
+        self.row(name, f"source {e.name}: V({e.a}) - V({e.b}), V")
+        self.names.signals[f"I({e.name})"] = f"-I({name})"  # ours leaves at a, SPICE's enters there
+
+    def el_currentsource(self, e: CurrentSource, s: str) -> None:
+        name = self.source("I", "", s, self.node(e.b), self.node(e.a), e.value)  # out of a
+        self.row(name, f"source {e.name}: current out of {e.a}, A")
+
+    def el_switch(self, e: Switch, s: str) -> None:
+        ctl = f"x_{s}_ctl"
+        self.internal[ctl] = ("switch", e)
+        pts = [(0.0, float(e.closed_at(0.0)))]
+        for t1, t2 in e.intervals:
+            pts += [(t1, 0.0), (t1, 1.0), (t2, 1.0), (t2, 0.0)]
+        pts = [pts[0]] + [p for p in pts[1:] if p[0] > 0]
+        self.add(f"vsw_{s}", ctl, 0, f"DC {num(pts[0][1])} {self.pwl(pts)}")
+        self.add(f"s_{s}", self.node(e.a), self.node(e.b), ctl, 0, f"msw_{s}")
+        self.models.append(f".model msw_{s} SW(RON={num(e.r_on)} ROFF={num(e.r_off)} VT=0.5 VH=0)")
+        self.notes.add("switch")
+        self.row(f"s_{s}", f"switch {e.name}: closed while V({ctl}) > 0.5")
+        self.row(f"vsw_{s}", f"switch {e.name}: control, 1 = closed")
+        self.row(f"msw_{s}", f"switch {e.name}: model with its on and off resistances")
+
+    def el_thermoelectric(self, e: Thermoelectric, s: str) -> None:
+        p, n, ta, tb = (self.node(x) for x in (e.p, e.n, e.a, e.b))
+        m, m2, sense = f"x_{s}_m", f"x_{s}_m2", f"vte_{s}"
+        self.internal[m], self.internal[m2] = ("seebeck", e), ("sense", e)
+        i = f"I({sense})"
+        if e.props is None:
+            S, R = _factor(e.seebeck), num(e.resistance)
+            r_line = [f"rte_{s}", m, m2, R]
+            k_line = [f"rtek_{s}", ta, tb, num(1.0 / e.conductance)]
+        else:  # a material's S, R, K are expressions of the mean side temperature T
+            tm = f"(0.5*(V({ta})+V({tb})))"
+            S, R, K = (bexpr(x, {"T": tm}) for x in e.props)
+            r_line = [f"brte_{s}", m, m2, f"I=(V({m})-V({m2}))/{R}"]
+            k_line = [f"brtek_{s}", ta, tb, f"I={K}*(V({ta})-V({tb}))"]
+        self.add(f"bte_{s}", p, m, f"V={S}*(V({tb})-V({ta}))")
+        self.add(*r_line)
+        self.add(sense, m2, n, "DC 0")
+        self.add(*k_line)
+        self.add(f"bteqa_{s}", ta, 0, f"I={S}*V({ta})*{i}-0.5*{R}*{i}*{i}")
+        self.add(f"bteqb_{s}", 0, tb, f"I={S}*V({tb})*{i}+0.5*{R}*{i}*{i}")
+        for name, what in ((f"bte_{s}", "Seebeck voltage S*(T_b - T_a)"), (r_line[0], "electrical resistance"),
+                           (sense, f"0 V sense: I({e.name}) from {e.p} to {e.n}"),
+                           (k_line[0], "thermal conductance K between the sides"),
+                           (f"bteqa_{s}", f"Q({e.name}.a) less conduction, taken from {e.a}"),
+                           (f"bteqb_{s}", f"Q({e.name}.b) less conduction, given to {e.b}")):
+            self.row(name, f"thermoelectric {e.name}: {what}")
+        self.names.signals[f"I({e.name})"] = f"I({sense})"
+
+    # ---- states ------------------------------------------------------------------------------
+    def node_values(self, sys, x: np.ndarray) -> dict[str, float]:
+        """Every netlist node's value in state x, internal nodes included."""
+        xe = np.append(x, 0.0)
+        val = lambda name: float(xe[sys.node_index[name]])
+        out = {self.node(n): val(n) for n in self.d.nodes if n not in self.d.grounds}
+        for node, (kind, e) in self.internal.items():
+            if kind == "switch":
+                out[node] = float(e.closed_at(0.0))
+            elif kind == "sense":
+                out[node] = val(e.n)
+            else:
+                S = e.values_at(0.5 * (val(e.a) + val(e.b)))[0]
+                out[node] = val(e.p) - float(S) * (val(e.b) - val(e.a))
+        return out
+
+    def fill_ic(self, sys, x: np.ndarray) -> None:
+        """IC= on every capacitor, mass and inductor, from the transient's initial state."""
+        xe = np.append(x, 0.0)
+        for i, names_ in self.ics:
+            if len(names_) == 2:
+                v = xe[sys.node_index[names_[0]]] - xe[sys.node_index[names_[1]]]
+            elif names_[0] in sys.branch_index:
+                v = xe[sys.branch_index[names_[0]]]
+            else:
+                v = xe[sys.node_index[names_[0]]]
+            self.lines[i] += f" IC={num(v)}"
+
+
+def _waves(e) -> list[Wave]:
+    return [w for w in (getattr(e, k, None) for k in ("temperature", "power", "value")) if isinstance(w, Wave)]
+
+
+def _thin(pts: list[tuple[float, float]]) -> list[tuple[float, float]]:
+    """Drop points that lie on the line through their neighbours (flat runs of a sampled PWL)."""
+    out = pts[:1]
+    for (t1, v1), (t2, v2) in zip(pts[1:-1], pts[2:]):
+        t0, v0 = out[-1]
+        line = v0 + (v2 - v0) * (t1 - t0) / (t2 - t0)
+        if abs(line - v1) > 1e-12 * max(abs(v0), abs(v1), abs(v2)):
+            out.append((t1, v1))
+    return out + pts[-1:] if len(pts) > 1 else out
+
+
+def _span(e: Shape) -> float:
+    """When a shape's last change (or first period) is over."""
+    a = e.args
+    if e.name == "step":
+        return a[2]
+    if e.name == "ramp":
+        return a[3]
+    if e.name == "table":
+        return a[-2]
+    if e.name == "pulse":
+        return a[2] + a[3] + a[4] + a[5] + max(a[6], 0.0)
+    return 1.0 / a[2] if a[2] else 0.0
+
+
+def _shape_points(e: Shape) -> list[tuple[float, float]]:
+    """A step, ramp or table as points; a repeated time is a jump (value before, then after)."""
+    a = e.args
+    if e.name == "step":
+        return [(a[2], a[0]), (a[2], a[1])]
+    if e.name == "ramp":
+        return [(a[2], a[0]), (a[2] if a[3] <= a[2] else a[3], a[1])]
+    return list(zip(a[0::2], a[1::2]))
+
+
+def _notes(notes: set[str], edge: float) -> list[str]:
+    text = {
+        "edge": f"a jump in time (step, table, pulse edge) is a linear edge at most {num(edge)} s wide, "
+                "centred on the jump so that the heat or charge it carries is the same",
+        "switch": "switches are S elements driven by a 0/1 control source whose edges are not "
+                  "instantaneous either; the switch changes state as the control crosses 0.5, "
+                  "at the closing or opening time",
+        "sampled": "a shape inside an expression is written as a PWL sampled at the shape's corners "
+                   f"(both sides of a jump) and on an even grid of {SAMPLES + 1} points over the run "
+                   "(points on a straight line left out); between samples it is linear",
+    }
+    return [line for k in ("edge", "switch", "sampled") if k in notes
+            for line in textwrap.wrap(f"Note: {text[k]}.", 92, initial_indent="* ", subsequent_indent="*   ")]
+
+
+def _header(d: Design, w: _Writer) -> list[str]:
+    """Title, the analogy, notes on what is approximated, the name table and the signal map."""
+    nm = w.names
+    out = [(d.title or d.file).replace("\n", " "), "* Written by netgen from " + d.file.replace("\n", " "),
+           "* Analogy: temperature = voltage (K), heat flow = current (W), heat capacity =",
+           "* capacitance (J/K), thermal resistance = resistance (K/W). Both domains share node 0:",
+           "* absolute zero for the thermal side, ground for the electrical side; they are coupled",
+           "* only through the controlled (B) sources. Values are plain SI numbers.",
+           *_notes(w.notes, w.edge), "*", "* Names (netlist name: ours):"]
+    grounds = ", ".join(d.grounds)
+    out.append("*   0: absolute zero" + (f"; ground {grounds}" if grounds else ""))
+    out += [f"*   {spice}: {_signal(d, name)}" for name, spice in nm.nodes.items() if spice != "0"]
+    out += [f"*   {node}: internal node of {e.name}" for node, (_, e) in w.internal.items()]
+    out += [f"*   {spice}: {ours}" for spice, ours in nm.rows]
+    out.append("* Signals (ours = simulator vector):")
+    return out + [f"*   {sig} = {vec}" for sig, vec in nm.signals.items()] + ["*"]
+
+
+def _signal(d: Design, node: str) -> str:
+    return f"{'T' if d.nodes[node].domain == THERMAL else 'V'}({node})"
+
+
+def write_netlist(design: Design) -> str:
+    """The design as SPICE3 netlist text: elements, name table, `.ic`, `.op`/`.tran`, `.end`."""
+    return netlist(design)[0]
+
+
+def netlist(design: Design) -> tuple[str, Names]:
+    """The netlist text and the name map it was written with (for reading results back)."""
+    w = _Writer(design)
+    nm = w.names
+    nm.signals = {_signal(design, n): f"V({s})" for n, s in nm.nodes.items() if s != "0"}
+    w.write()
+    sys = assemble(design)
+    tr = design.transient
+    want_op = design.steady is not None or tr is None  # with no analysis we solve the steady state
+    tail = [OPTIONS]
+    if want_op:
+        try:  # our steady state as Newton's first guess; the answer is still the simulator's own
+            guess = w.node_values(sys, solve_dc(sys, 0.0))
+        except NetgenError:
+            guess = {}
+        tail += [f".nodeset V({n})={num(v)}" for n, v in guess.items()] + [".op"]
+    if tr:
+        x0 = solve_dc(sys, 0.0, impose=True)  # the same initial state as our transient
+        w.fill_ic(sys, x0)
+        tail += [f".ic V({n})={num(v)}" for n, v in w.node_values(sys, x0).items()]
+        tail.append(f".tran {num(w.step)} {num(tr.until)} uic")
+    lines = _header(design, w) + w.lines + w.models + tail + [".end"]
+    return "\n".join(lines) + "\n", nm
