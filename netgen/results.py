@@ -43,7 +43,7 @@ class SignalEval:
             v = self._node(X, args[0])
             return v - self._node(X, args[1]) if len(args) == 2 else v
         name = args[0]
-        if kind == "Q" and "." in name:
+        if kind == "Q" and "." in name and d.element(name) is None:
             base, side = name.rsplit(".", 1)
             e = d.element(base)
             I = X[:, sys.branch_index[e.name]]

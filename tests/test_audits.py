@@ -6,6 +6,7 @@ import numpy as np
 import pytest
 
 import netgen
+from netgen.language import load_text
 from netgen.audits import energy_audit, entropy_audit, needed_signals
 
 EXAMPLES = sorted((Path(__file__).resolve().parents[1] / "examples").glob("*.etn"))
@@ -14,7 +15,7 @@ EXAMPLES = sorted((Path(__file__).resolve().parents[1] / "examples").glob("*.etn
 @pytest.mark.parametrize("path", EXAMPLES, ids=[p.name for p in EXAMPLES])
 def test_audits_pass_on_examples(path):
     text = path.read_text() + "\naudit energy within 0.1 %\naudit entropy\n"
-    res = netgen.load(text).run()
+    res = load_text(text, str(path)).run()  # named after the file, so its includes resolve
     audits = [c for c in res.checks if c.text in ("audit energy within 0.1 %", "audit entropy")]
     assert len(audits) >= 2
     for c in audits:

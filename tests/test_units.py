@@ -143,3 +143,9 @@ def test_unit_names_read_back():
 def test_parameter_names_may_not_be_units():
     with pytest.raises(NetgenError, match="unit symbol"):
         netgen.load("let mV = 3\n")
+
+
+def test_negative_celsius_literal_is_below_freezing():
+    """−25 °C = 248.15 K (Celsius scale definition), not −(25 °C)."""
+    assert param("-25 degC")[0] == pytest.approx(248.15)
+    assert param("-0.5 degC + 1 K")[0] == pytest.approx(273.65)

@@ -3,6 +3,7 @@ from __future__ import annotations
 
 import difflib
 import math
+from dataclasses import dataclass
 from pathlib import Path
 
 from lark import Token, Tree
@@ -20,11 +21,10 @@ from .grammar import parser
 from .quantities import ExprReader, SIGNAL_KINDS, Typed, read_quantity
 
 MAX_ERRORS = 20
-NOT_YET = {
-    "part": "write the part's statements out in full for now",
-    "use": "write the part's statements out in full for now",
-    "include": "paste the included file's statements into this one for now",
-}
+NOT_YET: dict[str, str] = {}  # statements of LANGUAGE.md not implemented yet, with a hint
+# Statements that make sense only once per design, not inside a reusable part.
+TOP_LEVEL_ONLY = ("design", "steady", "transient", "modes", "record", "expect_agg", "expect_at", "audit",
+                  "material", "part", "include")
 
 _TOKEN_WORDS = {
     "_NL": "end of line", "NAME": "a name", "QUANTITY": "a number", "LPAR": "`(`", "RPAR": "`)`",
@@ -34,7 +34,7 @@ _TOKEN_WORDS = {
 
 STATEMENTS = (
     "design let mass fixed link heat ground resistor capacitor inductor source switch "
-    "thermoelectric material steady transient modes record expect audit"
+    "thermoelectric material steady transient modes record expect audit part use include"
 ).split()
 
 
@@ -63,10 +63,22 @@ def load_text(text: str, filename: str = "<text>", overrides: dict[str, str] | N
     return design
 
 
+@dataclass
+class PartDef:
+    """A `part` as written: its ports, its statements, and the file they came from."""
+
+    name: str
+    ports: list[str]
+    body: list
+    loc: Loc
+    file: str
+    lines: list[str]
+
+
 class Elaborator:
     def __init__(self, text: str, filename: str, overrides: dict[str, str]):
         self.text = text
-        self.lines = text.splitlines()
+        self.lines = text.splitlines()  # of the file being read now (changes inside includes)
         self.file = filename
         self.overrides = dict(overrides)
         self.used_overrides: set[str] = set()
@@ -77,6 +89,15 @@ class Elaborator:
         self.node_first: dict[str, Loc] = {}
         self.element_locs: dict[str, Loc] = {}
         self.pending_signals: list[tuple] = []
+        self.parts: dict[str, PartDef] = {}
+        # Inside a used part: the instance prefix, the port → outer node map, the part's own
+        # `let` names and the `with` values, and the chain of parts being expanded.
+        self.prefix = ""
+        self.ports: dict[str, str] = {}
+        self.local_names: set[str] = set()
+        self.bindings: dict[str, Typed] = {}
+        self.expanding: list[str] = []
+        self.including: list[Path] = [Path(filename).resolve()] if filename != "<text>" else []
 
     # ---- locations ---------------------------------------------------------------
     def loc(self, item) -> Loc:
@@ -95,15 +116,10 @@ class Elaborator:
     # ---- driver ------------------------------------------------------------------
     def run(self) -> Design:
         tree = self.parse(self.text)
-        for stmt in tree.children:
-            if not isinstance(stmt, Tree):
-                continue
-            try:
-                getattr(self, "st_" + stmt.data)(stmt)
-            except NetgenError as e:
-                self.errors.append(e)
-                if len(self.errors) >= MAX_ERRORS or e.loc is None:
-                    break  # a --set error has no place in the file; what follows would only echo it
+        try:
+            self.statements(tree.children)
+        except _Stop:
+            pass
         if not self.errors:
             self.finish()
         unused = set(self.overrides) - self.used_overrides
@@ -118,6 +134,28 @@ class Elaborator:
         d = self.design
         d.params = {k: (v.value, U.unit_name(v.dim)) for k, v in self.params.items() if v.constant}
         return d
+
+    def statements(self, stmts) -> None:
+        """Elaborate statements one by one, collecting located errors (up to MAX_ERRORS)."""
+        for stmt in stmts:
+            if not isinstance(stmt, Tree):
+                continue
+            try:
+                self.statement(stmt)
+            except NetgenError as e:
+                self.errors.append(e)
+                if len(self.errors) >= MAX_ERRORS or e.loc is None:
+                    raise _Stop() from None  # a --set error has no place in the file; the rest would echo it
+
+    def statement(self, stmt) -> None:
+        if self.prefix and stmt.data in TOP_LEVEL_ONLY:
+            word = stmt.data.split("_")[0]
+            raise self.err(stmt, f"`{word}` is not allowed inside a part", "write it in the design that uses the part")
+        getattr(self, "st_" + stmt.data)(stmt)
+
+    def qualify(self, name: str) -> str:
+        """A name as written inside a part → its name in the design."""
+        return self.ports.get(name) or self.prefix + name
 
     def parse(self, text: str, start: str = "start"):
         try:
@@ -212,7 +250,7 @@ class Elaborator:
 
     # ---- nodes -------------------------------------------------------------------
     def node(self, tok, domain: str) -> str:
-        name = str(tok)
+        name = self.qualify(str(tok))
         d = self.design
         if name in d.nodes:
             n = d.nodes[name]
@@ -226,7 +264,7 @@ class Elaborator:
         return name
 
     def element_name(self, tok) -> str:
-        name = str(tok)
+        name = self.prefix + str(tok)
         if name in self.element_locs:
             raise self.err(tok, f"element `{name}` is already defined at line {self.element_locs[name].line}",
                            "element names must be unique")
@@ -256,14 +294,21 @@ class Elaborator:
     def st_let(self, t):
         name_tok, value = t.children
         name = str(name_tok)
-        if name in self.params:
+        in_part = bool(self.prefix)
+        if (name in self.local_names) if in_part else (name in self.params):
             raise self.err(name_tok, f"parameter `{name}` is already defined at line {self.param_locs[name].line}")
         if name in ("time", "pi"):
             raise self.err(name_tok, f"`{name}` is a reserved name")
         if U.is_unit_word(name):
             raise self.err(name_tok, f"`{name}` is a unit symbol and cannot name a parameter", "choose another name")
         typed = self.typed(value)
-        if name in self.overrides:
+        if in_part and name in self.bindings:
+            given = self.bindings.pop(name)
+            if given.dim != typed.dim:
+                raise self.err(name_tok, f"`with {name} = ...` is in {U.unit_name(given.dim)}, but `{name}` is in "
+                               f"{U.unit_name(typed.dim)}")
+            typed = given
+        elif not in_part and name in self.overrides:
             self.used_overrides.add(name)
             text = self.overrides[name]
             try:
@@ -282,6 +327,8 @@ class Elaborator:
             typed = otyped
         self.params[name] = typed
         self.param_locs[name] = self.loc(name_tok)
+        if in_part:
+            self.local_names.add(name)
 
     def st_mass(self, t):
         name_tok, cap, attrs = t.children
@@ -554,6 +601,96 @@ class Elaborator:
         within = self.const(within_t, U.NONE, "an audit tolerance", positive=True) if within_t is not None else None
         self.design.audits.append(Audit(str(kind_tok), self.loc(t), within))
 
+    # ---- parts and files ----------------------------------------------------------
+    def st_part(self, t):
+        name_tok, *rest = t.children
+        name = str(name_tok)
+        ports = [str(p) for p in rest if isinstance(p, Token) and p.type == "NAME"]
+        body = [c for c in rest if isinstance(c, Tree)]
+        if name in self.parts:
+            raise self.err(name_tok, f"part `{name}` is already defined at {self.parts[name].loc}")
+        if len(set(ports)) != len(ports):
+            raise self.err(name_tok, f"part `{name}` names a port twice")
+        self.parts[name] = PartDef(name, ports, body, self.loc(name_tok), self.file, self.lines)
+
+    def st_use(self, t):
+        part_tok, inst_tok, *rest = t.children
+        part = self.parts.get(str(part_tok))
+        if part is None:
+            close = difflib.get_close_matches(str(part_tok), list(self.parts), n=1)
+            raise self.err(part_tok, f"unknown part `{part_tok}`",
+                           f"did you mean `{close[0]}`?" if close else "define it first with `part NAME(PORTS) { ... }`")
+        if part.name in self.expanding:
+            raise self.err(part_tok, f"part `{part.name}` uses itself", "parts may not be recursive")
+        nodes = [c for c in rest if isinstance(c, Token) and c.type == "NAME"]
+        bindings = [c for c in rest if isinstance(c, Tree) and c.data == "binding"]
+        if len(nodes) != len(part.ports):
+            raise self.err(inst_tok, f"part `{part.name}` has {len(part.ports)} ports "
+                           f"({', '.join(part.ports) or 'none'}), but {len(nodes)} nodes are given")
+        inst = self.prefix + str(inst_tok)
+        if inst in self.element_locs or any(k.startswith(inst + ".") for k in self.element_locs):
+            raise self.err(inst_tok, f"`{inst_tok}` is already used as a name")
+        given = {}
+        for b in bindings:
+            bname, bexpr = b.children
+            if str(bname) in given:
+                raise self.err(bname, f"`{bname}` is given twice")
+            given[str(bname)] = self.typed(bexpr)
+        ports = {p: self.qualify(str(n)) for p, n in zip(part.ports, nodes)}
+        saved = (self.prefix, self.ports, self.local_names, self.bindings, self.params, self.param_locs,
+                 self.file, self.lines)
+        where = self.loc(t)
+        self.prefix, self.ports, self.local_names, self.bindings = inst + ".", ports, set(), dict(given)
+        self.params, self.param_locs = dict(self.params), dict(self.param_locs)
+        self.file, self.lines = part.file, part.lines
+        self.expanding.append(part.name)
+        try:
+            for stmt in part.body:
+                self.statement(stmt)
+            if self.bindings:
+                extra = sorted(self.bindings)
+                raise NetgenError(f"part `{part.name}` has no parameter {', '.join('`' + x + '`' for x in extra)}",
+                                  where, "`with` sets a part's own `let` defaults")
+        except NetgenError as e:
+            e.notes.append(f"in part `{part.name}` used as `{inst}` at {where}")
+            raise
+        finally:
+            self.expanding.pop()
+            (self.prefix, self.ports, self.local_names, self.bindings, self.params, self.param_locs,
+             self.file, self.lines) = saved
+
+    def st_include(self, t):
+        tok = t.children[0]
+        rel = str(tok)[1:-1]
+        base = Path(self.file).resolve().parent if self.file != "<text>" else Path.cwd()
+        path = (base / rel).resolve()
+        if path.suffix != ".etn":
+            raise self.err(tok, f"`{rel}` is not a .etn file", "only descriptions ending in .etn can be included")
+        if path in self.including:
+            raise self.err(tok, f"`{rel}` is already being read: an include cycle")
+        try:
+            text = path.read_bytes().decode("utf-8")
+        except OSError as e:
+            raise self.err(tok, f"cannot read `{rel}`: {e.strerror or e}") from None
+        except UnicodeDecodeError:
+            raise self.err(tok, f"`{rel}` is not valid UTF-8") from None
+        where = self.loc(t)
+        saved = (self.file, self.lines)
+        self.file, self.lines = str(path), text.splitlines()
+        self.including.append(path)
+        before = len(self.errors)
+        try:
+            tree = self.parse(text)
+            self.statements(tree.children)
+        except NetgenError as e:
+            e.notes.append(f"included from {where}")
+            raise
+        finally:
+            for e in self.errors[before:]:
+                e.notes.append(f"included from {where}")
+            self.including.pop()
+            self.file, self.lines = saved
+
     # ---- signals -----------------------------------------------------------------
     def signal_dim(self, kind, names, tree) -> U.Dim:
         self.pending_signals.append((kind, names, tree))
@@ -595,6 +732,10 @@ class Elaborator:
                 self.errors.append(self.err(tree, msg, hint))
 
 
+class _Stop(Exception):
+    """Too many errors, or one that makes the rest meaningless: stop reading."""
+
+
 def check_signal(d: Design, kind: str, names: tuple[str, ...]) -> None:
     """Raise ValueError(message, hint) when a signal does not fit the design."""
     from ..design import Element  # noqa: F401
@@ -618,7 +759,7 @@ def check_signal(d: Design, kind: str, names: tuple[str, ...]) -> None:
     if len(names) != 1:
         raise ValueError(f"`{kind}(...)` takes one name", None)
     name = names[0]
-    if kind == "Q" and "." in name:
+    if kind == "Q" and "." in name and d.element(name) is None:
         base, side = name.rsplit(".", 1)
         e = d.element(base)
         if isinstance(e, Thermoelectric) and side in ("a", "b"):

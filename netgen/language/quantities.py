@@ -88,6 +88,9 @@ class ExprReader:
             return self._name(tree)
         if kind == "neg":
             a = self._read(tree.children[0])
+            if a.celsius and isinstance(a.expr, Const) and tree.children[0].data == "number":
+                # `-25 degC` is minus twenty-five degrees Celsius, not minus 298.15 K.
+                return Typed(Const(2 * U.ZERO_CELSIUS - a.expr.v), a.dim, True)
             return Typed(_fold(Unary("neg", a.expr)), a.dim)
         if kind == "unary":  # unary plus keeps its operand (lark inlines `?unary`)
             return self._read(tree.children[0])
