@@ -125,13 +125,18 @@ def print_results(res: Results, out=None) -> None:
     if res.checks:
         print("\nexpectations", file=out)
         for c in res.checks:
-            mark = "pass" if c.passed else "FAIL"
-            where = f"{c.loc.line}: " if c.loc is not None else ""
-            detail = f" ({c.detail})" if c.detail else ""
-            print(f"  {mark}  {where}{c.text}   measured {_value(c.measured, c.unit, c.celsius)}, "
-                  f"limit {_value(c.limit, c.unit, c.celsius)}{detail}", file=out)
+            print(f"  {check_text(c)}", file=out)
         failed = sum(not c.passed for c in res.checks)
         print(f"  {len(res.checks) - failed} passed, {failed} failed", file=out)
+
+
+def check_text(c) -> str:
+    """One expectation or audit as printed: mark, line, text, measured value, limit, detail."""
+    mark = "pass" if c.passed else "FAIL"
+    where = f"{c.loc.line}: " if c.loc is not None else ""
+    detail = f" ({c.detail})" if c.detail else ""
+    return (f"{mark}  {where}{c.text}   measured {_value(c.measured, c.unit, c.celsius)}, "
+            f"limit {_value(c.limit, c.unit, c.celsius)}{detail}")
 
 
 def print_figures(res: Results, out) -> None:
@@ -166,6 +171,11 @@ def print_modes(res: Results, out) -> None:
         m = min(osc, key=lambda m: m.damping)
         print(f"  oscillatory: the least damped pair rings at {m.frequency:.4g} Hz with damping ratio "
               f"{m.damping:.3f}; temperatures in it can overshoot their final values", file=out)
+    celsius = res.design.celsius
+    for f in res.forecast:
+        final = f"{f.final - ZERO_C:.2f} °C" if celsius else f"{f.final:.4g} K"
+        print(f"  linear estimate: {f.unknown} passes its final value ({final}) at {f.crossing_time:.3g} s "
+              f"and overshoots it by {f.overshoot:.3g} K at {f.overshoot_time:.3g} s before settling", file=out)
 
 
 def summary(res: Results) -> dict:
@@ -180,6 +190,8 @@ def summary(res: Results) -> dict:
         out["transient_stats"] = dict(res.stats, points=int(len(res.time)), until=float(res.time[-1]))
     if res.modes is not None:
         out["modes"] = [m.as_dict() for m in res.modes]
+    if res.forecast:
+        out["forecast"] = [dict(vars(f)) for f in res.forecast]
     if res.figures:
         out["modules"] = res.figures
     if res.cautions:

@@ -135,6 +135,7 @@ class Results:
     stats: dict = field(default_factory=dict)
     initial: dict[str, float] = field(default_factory=dict)
     modes: list | None = None  # analysis.modes.Mode, slowest first
+    forecast: list = field(default_factory=list)  # analysis.modes.Forecast: linear estimates of swings
     figures: list[dict] = field(default_factory=list)  # per module, see merit.figures
     figures_at: str = ""
     cautions: list[str] = field(default_factory=list)

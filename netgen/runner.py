@@ -3,7 +3,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .analysis.modes import modes
+from .analysis.modes import forecast, modes
 from .analysis.steady import solve_dc
 from .analysis.transient import integrate
 from .assemble import assemble
@@ -57,6 +57,17 @@ def run_design(d: Design, progress=None) -> Results:
             res.modes = modes(sys, x_lin)
         except ValueError as e:
             raise NetgenError(str(e), want_modes.loc, "drop `modes` for a mesh this large") from None
+        if any(m.oscillatory for m in res.modes):
+            # Where it rings: the steady state with the sources as they stand at the end.
+            t_last = d.transient.until if d.transient is not None else 0.0
+            try:
+                x_final = solve_dc(sys, t_last)
+            except NetgenError:
+                x_final = None
+            if x_final is not None:
+                slowest = max(m.decay_time for m in res.modes if m.oscillatory)
+                span = t_last if t_last > 0 else 6 * slowest
+                res.forecast = forecast(sys, x_lin, x_final, min(span, 12 * slowest))
 
     def signal_of(analysis, text):
         if analysis == "steady" and res.steady is not None and text in res.steady:

@@ -1,4 +1,5 @@
 """Reusable parts, `use ... with`, and `include` (LANGUAGE.md, parts and files)."""
+import numpy as np
 import pytest
 
 import netgen
@@ -105,3 +106,35 @@ def test_include_errors(tmp_path):
         netgen.load(tmp_path / "f.etn")
     assert e.value.loc.file.endswith("e.etn") and e.value.loc.line == 1
     assert "included from" in e.value.render() and "f.etn:2:1" in e.value.render()
+
+
+def test_part_used_twice_equals_the_same_written_out_by_hand():
+    """A stage used twice gives exactly what the two stages written out by hand give."""
+    used = netgen.load(STAGE + """
+fixed hot 330 K
+fixed cold 290 K
+heat h x 1.5 W
+mass x 1 J/K start 300 K
+use stage s1(hot, x) with G = 0.7 W/K
+use stage s2(x, cold)
+transient until 20 s step 0.5 s
+record T(x) T(s1.mid) T(s2.mid)
+""").run()
+    by_hand = netgen.load("""
+fixed hot 330 K
+fixed cold 290 K
+heat h x 1.5 W
+mass x 1 J/K start 300 K
+mass a 2 J/K
+link a_up hot a 0.7 W/K
+link a_down a x 0.7 W/K
+mass b 2 J/K
+link b_up x b 1 W/K
+link b_down b cold 1 W/K
+transient until 20 s step 0.5 s
+record T(x) T(a) T(b)
+""").run()
+    assert np.array_equal(used.time, by_hand.time)
+    assert np.allclose(used["T(x)"], by_hand["T(x)"], rtol=0, atol=1e-12)
+    assert np.allclose(used["T(s1.mid)"], by_hand["T(a)"], rtol=0, atol=1e-12)
+    assert np.allclose(used["T(s2.mid)"], by_hand["T(b)"], rtol=0, atol=1e-12)

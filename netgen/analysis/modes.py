@@ -77,3 +77,67 @@ def modes(sys: System, x: np.ndarray, t: float = 0.0) -> list[Mode]:
         out.append(Mode(float(lam.real), float(abs(lam.imag)), nodes))
     out.sort(key=lambda m: (abs(m.real), m.imag))
     return out
+
+
+@dataclass
+class Forecast:
+    """The linear estimate of one temperature's swing past its final value."""
+
+    unknown: str
+    final: float
+    crossing_time: float  # first time the value passes its final value, s
+    overshoot: float  # largest excursion beyond the final value after that crossing (same unit)
+    overshoot_time: float
+    frequency: float
+    damping: float
+
+
+def forecast(sys: System, x0: np.ndarray, x_final: np.ndarray, span: float) -> list[Forecast]:
+    """Linear response from x0 towards x_final, linearised at x_final (where it rings).
+
+    δx(t) = Σ v_k·e^(λ_k t)·(w_kᴴ C δx0)/(w_kᴴ C v_k) over the finite modes, with right and left
+    eigenvectors v_k, w_k of −J·v = λ·C·v. Returns the temperatures that cross their final value
+    while an oscillatory mode is present.
+    """
+    n = sys.n
+    if n == 0 or n > DENSE_LIMIT:
+        return []
+    J = sys.J(x_final, sys.switch_state(span)).toarray()
+    C = sys.C.toarray()
+    w, vl, vr = scipy.linalg.eig(-J, C, left=True, right=True)
+    scale = max(1.0, float(np.max(np.abs(J))) / max(float(np.max(np.abs(C))), 1e-300))
+    finite = np.isfinite(w) & (np.abs(w) < 1e10 * scale)
+    osc = finite & (np.abs(w.imag) > 1e-12 * np.maximum(1.0, np.abs(w.real)))
+    if not osc.any():
+        return []
+    dx0 = x0 - x_final
+    coef = np.zeros(len(w), dtype=complex)
+    for k in np.flatnonzero(finite):
+        den = vl[:, k].conj() @ C @ vr[:, k]
+        if abs(den) > 1e-300:
+            coef[k] = (vl[:, k].conj() @ C @ dx0) / den
+    t = np.linspace(0.0, span, 4001)
+    ks = np.flatnonzero(finite)
+    lam = w[ks]
+    ringing = min((k for k in np.flatnonzero(osc)), key=lambda k: -w[k].real / abs(w[k]))
+    zeta = float(-w[ringing].real / abs(w[ringing]))
+    freq = float(abs(w[ringing].imag) / (2 * math.pi))
+    out = []
+    for i, kind in enumerate(sys.kinds):
+        if kind != "T" or abs(dx0[i]) < 1e-9:
+            continue
+        if abs(vr[i, ringing]) < 1e-6 * np.max(np.abs(vr[:, ringing])):
+            continue
+        dx = np.real((vr[i, ks] * coef[ks])[None, :] * np.exp(np.outer(t, lam))).sum(axis=1)
+        sign0 = np.sign(dx0[i])
+        crossed = np.flatnonzero(np.sign(dx) == -sign0)
+        if len(crossed) == 0:
+            continue
+        k0 = crossed[0]
+        # Interpolate the crossing between grid points.
+        tc = t[k0 - 1] + (t[k0] - t[k0 - 1]) * dx[k0 - 1] / (dx[k0 - 1] - dx[k0]) if k0 > 0 else 0.0
+        after = dx[k0:] * -sign0
+        j = int(np.argmax(after))
+        out.append(Forecast(sys.names[i], float(x_final[i]), float(tc), float(after[j]),
+                            float(t[k0 + j]), freq, zeta))
+    return out
