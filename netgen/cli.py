@@ -8,7 +8,7 @@ from pathlib import Path
 from . import __version__
 from .errors import NetgenError
 
-EXIT_OK, EXIT_FAILED, EXIT_INPUT = 0, 1, 2
+EXIT_OK, EXIT_FAILED, EXIT_INPUT, EXIT_SIMULATOR = 0, 1, 2, 3
 
 
 class _Parser(argparse.ArgumentParser):
@@ -34,29 +34,110 @@ def _load(args):
     return load(args.file, _settings(getattr(args, "set", None)))
 
 
+def _notes(d) -> None:
+    from .topology import unused_warnings
+
+    for w in unused_warnings(d):
+        print(w, file=sys.stderr)
+
+
 def cmd_check(args) -> int:
     from .report import describe
 
     d = _load(args)
     print(describe(d))
+    _notes(d)
     return EXIT_OK
 
 
 def cmd_run(args) -> int:
     from .report import print_results, write_outputs
 
+    if args.plot or args.report:
+        from .plots import require
+
+        require()  # before the solve: a missing matplotlib should not cost a long transient
     d = _load(args)
+    _notes(d)
     progress = None
     if sys.stderr.isatty() and not args.quiet:
         from .report import Progress
 
         progress = Progress(d.transient.until if d.transient else 1.0)
-    res = d.run() if progress is None else _run_with(d, progress)
+    try:
+        res = d.run() if progress is None else _run_with(d, progress)
+    except NetgenError as e:
+        partial = getattr(e, "results", None)
+        if args.out and partial is not None:
+            for path in write_outputs(partial, Path(args.out)):
+                print(f"wrote {path} (partial: up to t = {partial.time[-1]:.6g} s)", file=sys.stderr)
+        raise
     print_results(res)
     if args.out:
         for path in write_outputs(res, Path(args.out)):
             print(f"wrote {path}")
+    if args.plot or args.report:
+        _run_pictures(args, res)
     return EXIT_OK if res.passed else EXIT_FAILED
+
+
+def _run_pictures(args, res) -> None:
+    """`run --plot DIR` and `run --report OUT.html`, with the design's baseline overlaid if it has one."""
+    from .verify import Outcome, attach_baseline
+
+    o = Outcome(Path(args.file), _settings(args.set), results=res)
+    try:
+        attach_baseline(o)
+    except NetgenError as e:
+        print(f"note: the baseline is not shown: {e.message}", file=sys.stderr)
+    if args.plot:
+        from .plots import write_plots
+
+        written = write_plots(res, Path(args.plot), o.baseline)
+        print(f"wrote {len(written)} plots to {args.plot}" if written else "no transient: nothing to plot")
+    if args.report:
+        from .report import write_atomic
+        from .webreport import html_report
+
+        write_atomic(Path(args.report), html_report([o], f"netgen run: {Path(args.file).name}"))
+        print(f"wrote {args.report}")
+
+
+def cmd_verify(args) -> int:
+    from .verify import check_names, design_files, exit_code, outcome_lines, parse_rtol, total_line, verify_file
+
+    settings = _settings(args.set)
+    rtol, per_signal = parse_rtol(args.rtol)
+    if args.report:
+        from .plots import require
+
+        require()
+    files = design_files(args.paths)
+    directory = Path(args.baseline) if args.baseline else None
+    check_names(files, directory)
+    outcomes = []
+    for f in files:
+        o = verify_file(f, settings, directory, rtol, per_signal, args.update_baseline)
+        print("\n".join(outcome_lines(o)), flush=True)
+        outcomes.append(o)
+    print(total_line(outcomes))
+    if args.junit:
+        from .junit import junit_xml
+        from .report import write_atomic
+
+        write_atomic(Path(args.junit), junit_xml(outcomes))
+        print(f"wrote {args.junit}")
+    if args.report:
+        from .report import write_atomic
+        from .webreport import html_report
+
+        write_atomic(Path(args.report), html_report(outcomes, "netgen verify"))
+        print(f"wrote {args.report}")
+    unused = [s for s in per_signal if not any(o.results and s in o.results.signals for o in outcomes)]
+    if unused:
+        print(f"netgen: error: --rtol names {', '.join(unused)}, which no design records", file=sys.stderr)
+        return EXIT_INPUT
+    return exit_code(outcomes)
 
 
 def _run_with(d, progress):
@@ -81,6 +162,32 @@ def cmd_export(args) -> int:
     else:
         sys.stdout.write(text)
     return EXIT_OK
+
+
+def cmd_crosscheck(args) -> int:
+    from .spice.compare import Tolerances, crosscheck
+    from .spice.runner import SimulatorError
+
+    d = _load(args)
+    try:
+        rep = crosscheck(d, args.simulator, Tolerances.from_rtol(args.rtol), Path(args.keep) if args.keep else None)
+    except SimulatorError as e:  # missing or failed: its own words, and a code of its own
+        print(f"netgen crosscheck: {e.render()}", file=sys.stderr)
+        return EXIT_SIMULATOR
+    print(rep.table())
+    if args.keep:
+        print(f"kept the netlist, the raw file and the simulator's output in {args.keep}")
+    return EXIT_OK if rep.passed else EXIT_FAILED
+
+
+def _positive(text: str) -> float:
+    try:
+        v = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a number") from None
+    if not v > 0:
+        raise argparse.ArgumentTypeError(f"{text!r} must be greater than zero")
+    return v
 
 
 def cmd_matrices(args) -> int:
@@ -109,8 +216,33 @@ def build_parser() -> argparse.ArgumentParser:
     r = add("run", cmd_run, "solve the description's analyses and print a summary")
     r.add_argument("--out", metavar="DIR", help="write transient.csv and summary.json into DIR")
     r.add_argument("--quiet", action="store_true", help="no progress line")
+    r.add_argument("--plot", metavar="DIR", help="write a PNG and an SVG plot of each recorded signal into DIR (needs matplotlib)")
+    r.add_argument("--report", metavar="OUT.html", help="write a self-contained HTML report (needs matplotlib)")
+    v = sub.add_parser("verify", help="run designs, check expectations and audits, compare with baselines",
+                       description="Run every design given (a directory: its *.etn files), evaluate its "
+                       "expectations and audits, and compare its recorded signals with its baseline.")
+    v.add_argument("paths", nargs="+", metavar="FILE_OR_DIR", help="a .etn design or a directory of them")
+    v.add_argument("--baseline", metavar="DIR",
+                   help="where baselines are kept (default: baselines/ beside each design), as DIR/NAME.json")
+    v.add_argument("--update-baseline", action="store_true",
+                   help="write the baselines of these designs from this run, and say which changed")
+    v.add_argument("--rtol", action="append", metavar="[SIGNAL=]R",
+                   help="relative tolerance of the baseline comparison, as a share of each signal's "
+                   "range (default 0.1%%): --rtol 0.5%% for all, --rtol 'T(die)=0.2%%' for one (repeatable)")
+    v.add_argument("--set", action="append", metavar="NAME=VALUE",
+                   help="override a `let` parameter in every design, e.g. --set I_drive=1.5A (repeatable)")
+    v.add_argument("--junit", metavar="OUT.xml", help="write a JUnit XML test report")
+    v.add_argument("--report", metavar="OUT.html", help="write a self-contained HTML report (needs matplotlib)")
+    v.set_defaults(func=cmd_verify)
     e = add("export", cmd_export, "write the SPICE netlist of a description")
     e.add_argument("-o", "--output", metavar="OUT.cir", help="file to write (default: standard output)")
+    x = add("crosscheck", cmd_crosscheck,
+            "run the exported netlist in an outside circuit simulator and compare it with netgen's results")
+    x.add_argument("--simulator", metavar="CMD", default="ngspice",
+                   help="the simulator's executable, run as CMD -b -r OUT.raw NETLIST (default: ngspice)")
+    x.add_argument("--rtol", metavar="R", type=_positive, default=None,
+                   help="relative tolerance of the comparison (default 1e-3); every tolerance scales with it")
+    x.add_argument("--keep", metavar="DIR", help="keep the netlist, the raw file and the simulator's output in DIR")
     m = add("matrices", cmd_matrices, "write the assembled matrices (Matrix Market) and unknown names")
     m.add_argument("-o", "--output", metavar="DIR", default="matrices", help="directory (default: ./matrices)")
     return p

@@ -20,14 +20,21 @@ from .results import Results
 ZERO_C = 273.15
 
 
-def write_atomic(path: Path, text: str) -> None:
+def write_atomic(path: Path, text: str | bytes) -> None:
     """Write via a temporary file in the same directory and rename, so a crash never leaves half a file."""
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", dir=path.parent)
     try:
-        with os.fdopen(fd, "w", encoding="utf-8", newline="") as f:
-            f.write(text)
+        if isinstance(text, bytes):
+            with os.fdopen(fd, "wb") as f:
+                f.write(text)
+        else:
+            with os.fdopen(fd, "w", encoding="utf-8", newline="") as f:
+                f.write(text)
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(tmp, 0o666 & ~umask)  # mkstemp makes the file private; give it the usual mode
         os.replace(tmp, path)
     except BaseException:
         if os.path.exists(tmp):
@@ -188,6 +195,8 @@ def summary(res: Results) -> dict:
             for s, w in res.waveforms.items() if s in res.signals
         }
         out["transient_stats"] = dict(res.stats, points=int(len(res.time)), until=float(res.time[-1]))
+        if res.stats.get("partial"):
+            out["partial"] = True  # the transient stopped early; see transient_stats.stopped
     if res.modes is not None:
         out["modes"] = [m.as_dict() for m in res.modes]
     if res.forecast:
@@ -229,10 +238,11 @@ def transient_csv(res: Results) -> str:
 def write_outputs(res: Results, out_dir: Path) -> list[Path]:
     written = []
     if res.time is not None:
-        p = out_dir / "transient.csv"
+        # A transient that stopped early never replaces a complete one written before.
+        p = out_dir / ("transient.partial.csv" if res.stats.get("partial") else "transient.csv")
         write_atomic(p, transient_csv(res))
         written.append(p)
-    p = out_dir / "summary.json"
+    p = out_dir / ("summary.partial.json" if res.stats.get("partial") else "summary.json")
     write_atomic(p, json.dumps(_strict(summary(res)), indent=2, allow_nan=False) + "\n")
     written.append(p)
     return written

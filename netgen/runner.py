@@ -39,6 +39,14 @@ def run_design(d: Design, progress=None) -> Results:
             wf = integrate(sys, x0, tr.until, tr.step, tr.tolerance, progress)
         except NetgenError as e:
             e.loc = e.loc or tr.loc
+            part = getattr(e, "partial", None)
+            if part is not None and len(part.time) > 1:
+                # Keep what was computed: the caller may write it, marked as partial.
+                res.time = part.time
+                res.waveforms = {s: sig(s, part.x, part.xdot, part.time, part.left_rows) for s in wanted}
+                res.stats = {"steps": part.steps, "rejected": part.rejected, "partial": True,
+                             "stopped": e.message}
+                e.results = res
             raise
         states["transient"] = (wf.x, wf.xdot, wf.time, wf.left_rows)
         res.time = wf.time

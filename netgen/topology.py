@@ -4,7 +4,7 @@ from __future__ import annotations
 import networkx as nx
 
 from .design import (
-    ELECTRICAL, THERMAL, Capacitor, CurrentSource, Design, Fixed, Inductor, Link, Resistor,
+    ELECTRICAL, THERMAL, Capacitor, CurrentSource, Design, Fixed, Heat, Inductor, Link, Resistor,
     Switch, Thermoelectric, TwoTerminal, VoltageSource,
 )
 from .errors import NetgenError, NetgenErrors
@@ -30,6 +30,8 @@ def graph(d: Design) -> nx.MultiGraph:
             g.add_edge(e.a, e.b, element=e.name, kind="sides")
         elif isinstance(e, Fixed):
             g.add_edge(e.node, THERMAL_REF, element=e.name, kind="Fixed")
+        elif isinstance(e, Heat):
+            g.add_edge(e.node, THERMAL_REF, element=e.name, kind="Heat")
     for n in d.nodes.values():
         if n.capacity is not None:
             g.add_edge(n.name, THERMAL_REF, element=n.name, kind="mass")
@@ -99,6 +101,34 @@ def check_design(d: Design) -> None:
                 f"thermal nodes {_names(comp)} have no reservoir, so every mass needs a start; "
                 f"{_names(unstarted)} has none", d.nodes[unstarted[0]].loc,
                 "write `start TEMP` on the mass, or add `fixed NODE TEMP`"))
+
+    # In a steady state capacitors carry no current, so every electrical node needs a path to a
+    # ground through branches that do; nodes reached only through capacitors and current
+    # sources (a cut set) make the steady equations singular. The transient's start holds each
+    # capacitor with a `start` at its voltage, which gives such a path.
+    islanded = set()
+    passes = ([("steady", False)] if d.steady is not None or d.transient is None else [])
+    passes += [("transient", True)] if d.transient is not None else []
+    for analysis, started in passes:
+        g = _domain_graph(d, ELECTRICAL, dc=True)
+        if started:
+            g.add_edges_from((e.a, e.b) for e in d.of_kind(Capacitor) if e.start is not None)
+        for comp in nx.connected_components(g):
+            if comp & set(d.grounds) or comp & islanded:
+                continue
+            islanded |= comp
+            cut = [e for e in d.elements if isinstance(e, (Capacitor, CurrentSource))
+                   and (e.a in comp) != (e.b in comp)]
+            first = cut[0] if cut else min((d.nodes[n] for n in comp), key=lambda n: (n.loc.line, n.loc.col))
+            kinds = " and ".join(sorted({"capacitors" if isinstance(e, Capacitor) else "current sources"
+                                         for e in cut})) or "nothing"
+            hint = ("give the capacitor a `start` voltage, or add a resistor to ground (1 Gohm will do)"
+                    if analysis == "transient" or any(isinstance(e, Capacitor) for e in cut)
+                    else "add a resistor from one of them to ground")
+            errors.append(NetgenError(
+                f"electrical nodes {_names(comp)} are reached only through {kinds} "
+                f"({_names(e.name for e in cut)}), so the {'start of the transient' if started else 'steady state'} "
+                "has no solution there", first.loc, hint))
 
     # Loops of voltage-defining branches make the equations singular.
     vg = nx.Graph()

@@ -128,8 +128,25 @@ class DCProblem:
         return (self.Kr @ J + self.E).tocsc()
 
 
+def check_physical(sys: System, x: np.ndarray, when: str) -> None:
+    """Temperatures at or below absolute zero mean the network asks the impossible."""
+    cold = [i for i, k in enumerate(sys.kinds) if k == TEMP and not x[i] > 0]
+    if cold:
+        names = ", ".join(sys.names[i] for i in cold[:4]) + (" ..." if len(cold) > 4 else "")
+        raise SolveError(
+            f"{when} puts {names} at or below absolute zero ({x[cold[0]]:.6g} K)", None,
+            "more heat is taken out there than can flow in: check the signs of heat inputs and "
+            "module currents, and the links to a reservoir")
+
+
 def solve_dc(sys: System, t: float = 0.0, impose: bool = False) -> np.ndarray:
     """The steady state at time t (with `impose`, every start value held). Raises SolveError."""
+    x = _solve_dc(sys, t, impose)
+    check_physical(sys, x, "the start of the transient" if impose else "the steady state")
+    return x
+
+
+def _solve_dc(sys: System, t: float, impose: bool) -> np.ndarray:
     if sys.n == 0:
         return np.zeros(0)
     prob = DCProblem(sys, t, impose)

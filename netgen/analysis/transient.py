@@ -153,7 +153,8 @@ def integrate(sys: System, x0: np.ndarray, t_end: float, max_step: float | None 
             rejected += 1
             h *= 0.25
             if h < h_min:
-                return _partial(times, xs, xds, steps, rejected, fac, t, "the step size collapsed (Newton failed)")
+                return _partial(times, xs, xds, steps, rejected, fac, t, "the step size collapsed (Newton failed)",
+                                sys, x, y1 - x)
             continue
         z1 = (2.0 / hg) * (C @ (y1 - x)) - z
         z_new = (C @ (x_new - A2 * y1 + B2 * x)) / (D * h)
@@ -168,8 +169,14 @@ def integrate(sys: System, x0: np.ndarray, t_end: float, max_step: float | None 
             rejected += 1
             h *= max(0.1, 0.9 * err ** (-1.0 / 3.0))
             if h < h_min:
-                return _partial(times, xs, xds, steps, rejected, fac, t, "the step size collapsed (error control)")
+                return _partial(times, xs, xds, steps, rejected, fac, t, "the step size collapsed (error control)",
+                                sys, x, est / w)
             continue
+        if np.any(x_new[is_temp] <= 0):
+            return _partial(times, xs, xds, steps, rejected, fac, t,
+                            "a temperature would fall to absolute zero", sys, x,
+                            np.where(is_temp & (x_new <= 0), 1.0, 0.0), "first at", "more heat is taken out there than "
+                            "can flow in: check the signs of heat inputs and module currents, and the links to a reservoir")
         # Accept.
         steps += 1
         xdot = (x_new - A2 * y1 + B2 * x) / (D * h)
@@ -209,9 +216,20 @@ def integrate(sys: System, x0: np.ndarray, t_end: float, max_step: float | None 
                      left_rows=np.array(left_rows))
 
 
-def _partial(times, xs, xds, steps, rejected, fac, t, why) -> Waveforms:
-    raise SolveError(
-        f"the transient stopped at t = {t:.6g} s: {why}", None,
-        "look for a switch or source jump into a capacitor or inductor with no resistance, "
-        "or loosen `tolerance`",
+def _partial(times, xs, xds, steps, rejected, fac, t, why, sys=None, x=None, est=None,
+             label="the unknowns changing fastest:", hint=None) -> Waveforms:
+    """Stop with a SolveError that carries the waveforms computed so far."""
+    worst = ""
+    if sys is not None and est is not None and np.any(est != 0):
+        order = [i for i in np.argsort(-np.abs(est))[:3] if est[i] != 0]
+        worst = f"; {label} " + ", ".join(sys.names[i] for i in order)
+    err = SolveError(
+        f"the transient stopped at t = {t:.6g} s: {why}{worst}", None,
+        hint or "look for a switch or source jump into a capacitor or inductor with no resistance, "
+        "a module driven far past its limits, or loosen `tolerance`",
     )
+    n = len(xs[0]) if xs else 0
+    err.partial = Waveforms(np.array(times), np.array(xs).reshape(-1, n), np.array(xds).reshape(-1, n),
+                            steps, rejected, fac.count, left_rows=np.zeros(len(times), dtype=bool),
+                            partial=True, message=err.message)
+    raise err
