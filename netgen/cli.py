@@ -94,7 +94,8 @@ def _run_pictures(args, res) -> None:
         from .plots import write_plots
 
         written = write_plots(res, Path(args.plot), o.baseline)
-        print(f"wrote {len(written)} plots to {args.plot}" if written else "no transient: nothing to plot")
+        n = len([w for w in written if w.suffix == ".png"])
+        print(f"wrote {n} plots (PNG and SVG) to {args.plot}" if written else "no transient: nothing to plot")
     if args.report:
         from .report import write_atomic
         from .webreport import html_report

@@ -162,8 +162,8 @@ def evaluate_expectation(e: Expectation, res: Results, signal_of) -> Check:
     if e.agg == "steady":
         if res.steady is None:
             return Check(e.text, float("nan"), e.limit, e.unit, False, e.loc, "the design has no `steady` analysis")
-        values = {n: np.array([signal_of("steady", n)]) for n in names}
-        measured = float(np.atleast_1d(evaluate(e.expr, 0.0, signals=values))[0])
+        values = {n: np.atleast_1d(np.asarray(signal_of("steady", n), dtype=float)).ravel()[:1] for n in names}
+        measured = float(np.atleast_1d(evaluate(e.expr, 0.0, signals=values)).ravel()[0])
     else:
         if res.time is None:
             return Check(e.text, float("nan"), e.limit, e.unit, False, e.loc, "the design has no `transient` analysis")

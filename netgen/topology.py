@@ -61,11 +61,20 @@ def _names(nodes) -> str:
     return shown + (f" and {len(nodes) - 6} more" if len(nodes) > 6 else "")
 
 
+def _nodes(domain: str, comp, one: str, many: str) -> str:
+    """`thermal node `a` has` or `thermal nodes `a`, `b` have`."""
+    if len(comp) == 1:
+        return f"{domain} node {_names(comp)} {one}"
+    return f"{domain} nodes {_names(comp)} {many}"
+
+
 def check_design(d: Design) -> None:
     """Structural checks before any solve. Raises NetgenError naming nodes and elements."""
     errors: list[NetgenError] = []
     if not d.nodes:
-        raise NetgenError("the design has no nodes", None, "add masses, links, resistors ...")
+        from .design import Loc
+
+        raise NetgenError("the design has no nodes", Loc(d.file, 1, 1), "add masses, links, resistors ...")
     fixed_nodes = {e.node for e in d.elements if isinstance(e, Fixed)}
 
     # Electrical islands need a ground.
@@ -74,7 +83,7 @@ def check_design(d: Design) -> None:
         if not comp & set(d.grounds):
             first = min((d.nodes[n] for n in comp), key=lambda n: (n.loc.line, n.loc.col))
             errors.append(NetgenError(
-                f"electrical nodes {_names(comp)} have no path to a ground", first.loc,
+                f"{_nodes('electrical', comp, 'has', 'have')} no path to a ground", first.loc,
                 "add `ground NODE` for one of them"))
 
     # Thermal islands: a reservoir, or a start for every mass; never only junctions.
@@ -87,18 +96,18 @@ def check_design(d: Design) -> None:
         masses = [d.nodes[n] for n in comp if d.nodes[n].capacity is not None]
         if not masses:
             errors.append(NetgenError(
-                f"thermal nodes {_names(comp)} have neither a reservoir nor a heat capacity", first.loc,
+                f"{_nodes('thermal', comp, 'has', 'have')} neither a reservoir nor a heat capacity", first.loc,
                 "fix one of them with `fixed NODE TEMP` or give one a `mass`"))
             continue
         if needs_reference:
             errors.append(NetgenError(
-                f"thermal nodes {_names(comp)} have no reservoir, so `steady` has no answer", d.steady.loc,
+                f"{_nodes('thermal', comp, 'has', 'have')} no reservoir, so `steady` has no answer", d.steady.loc,
                 "add `fixed NODE TEMP` to one of them, or drop `steady` and give every mass a start"))
             continue
         unstarted = [m.name for m in masses if m.start is None]
         if unstarted:
             errors.append(NetgenError(
-                f"thermal nodes {_names(comp)} have no reservoir, so every mass needs a start; "
+                f"{_nodes('thermal', comp, 'has', 'have')} no reservoir, so every mass needs a start; "
                 f"{_names(unstarted)} has none", d.nodes[unstarted[0]].loc,
                 "write `start TEMP` on the mass, or add `fixed NODE TEMP`"))
 
@@ -126,7 +135,7 @@ def check_design(d: Design) -> None:
                     if analysis == "transient" or any(isinstance(e, Capacitor) for e in cut)
                     else "add a resistor from one of them to ground")
             errors.append(NetgenError(
-                f"electrical nodes {_names(comp)} are reached only through {kinds} "
+                f"{_nodes('electrical', comp, 'is', 'are')} reached only through {kinds} "
                 f"({_names(e.name for e in cut)}), so the {'start of the transient' if started else 'steady state'} "
                 "has no solution there", first.loc, hint))
 

@@ -1,6 +1,7 @@
 """Physical dimensions and unit symbols: text units to SI factors and back to readable names."""
 from __future__ import annotations
 
+import functools
 import re
 from dataclasses import dataclass
 from fractions import Fraction
@@ -57,6 +58,9 @@ AREA = _d(m=2)
 RESISTIVITY = RESISTANCE * LENGTH
 CONDUCTIVITY = THERMAL_CONDUCTANCE / LENGTH
 PER_KELVIN = _d(K=-1)
+MASS = _d(kg=1)
+DENSITY = MASS / LENGTH**3
+SPECIFIC_HEAT = HEAT_CAPACITY / MASS
 
 # Unit symbols of the language and their SI factor and dimension.
 SYMBOLS: dict[str, tuple[float, Dim]] = {
@@ -72,6 +76,7 @@ SYMBOLS: dict[str, tuple[float, Dim]] = {
     "F": (1.0, CAPACITANCE),
     "m": (1.0, LENGTH),
     "Hz": (1.0, FREQUENCY),
+    "g": (1e-3, MASS),  # the gram, so that `kg` reads as the kilogram
 }
 SCALE_WORDS: dict[str, float] = {"%": 0.01, "ppm": 1e-6}
 ABSOLUTE_CELSIUS = ("degC", "°C")
@@ -114,12 +119,13 @@ def _suggest(word: str) -> str | None:
     for cand in ["ohm", "Hz", "degC"] + [p + s for p in PREFIXES for s in SYMBOLS] + list(SYMBOLS):
         if cand.lower() == low:
             return f"did you mean `{cand}`? (prefixes and symbols are case-sensitive)"
-    return "units are s K degC W J V A ohm H F m Hz, with prefixes f p n u m k M G, and % ppm"
+    return "units are s K degC W J V A ohm H F m Hz g, with prefixes f p n u m k M G, and % ppm"
 
 
 _TOKEN = re.compile(r"\s*(?:(?P<num>\d+)|(?P<word>[A-Za-zµμΩ°%]+)|(?P<op>[*/^()\-]))")
 
 
+@functools.lru_cache(maxsize=4096)  # a large mesh repeats a handful of units many thousand times
 def parse_unit(text: str) -> tuple[float, Dim, bool]:
     """Read a unit text such as `W/(m*K)` or `degC`.
 
@@ -201,7 +207,8 @@ _NAMES: list[tuple[Dim, str]] = [
     (INDUCTANCE, "H"), (FREQUENCY, "Hz"), (HEAT_CAPACITY, "J/K"),
     (THERMAL_CONDUCTANCE, "W/K"), (THERMAL_RESISTANCE, "K/W"), (SEEBECK, "V/K"),
     (LENGTH, "m"), (AREA, "m^2"), (RESISTIVITY, "ohm*m"), (CONDUCTIVITY, "W/(m*K)"),
-    (PER_KELVIN, "1/K"), (VOLTAGE / TIME, "V/s"), (CURRENT / TIME, "A/s"),
+    (PER_KELVIN, "1/K"), (MASS, "kg"), (DENSITY, "kg/m^3"), (SPECIFIC_HEAT, "J/(kg*K)"),
+    (VOLTAGE / TIME, "V/s"), (CURRENT / TIME, "A/s"),
     (TEMPERATURE / TIME, "K/s"), (POWER / TIME, "W/s"), (ENERGY / TEMPERATURE**2, "J/K^2"),
 ]
 

@@ -58,7 +58,7 @@ def test_failed_expectation_exits_1(tmp_path):
 
 @pytest.mark.parametrize("text, line, col, fragment", [
     ("mass m 1 J/K\nlnk l m r 1 W/K\n", 2, 1, "did you mean `link`"),
-    ("mass m 1 J/K\nfixed r 300 K\nlink l m r 1 W/Q\n", 3, 16, "unknown name `Q`"),
+    ("mass m 1 J/K\nfixed r 300 K\nlink l m r 1 W/Q\n", 3, 16, "unknown unit `Q`"),
     ("mass m 1 J/K start 20 degC\nlink l m r 1 W\nfixed r 300 K\n", 2, 12, "W/K or K/W"),
     ("ground g\nresistor r a g 1 ohm\nresistor q a b 1 mOhm\n", 3, 18, "did you mean `mohm`"),
     ("let x = 1 K\nlet x = 2 K\n", 2, 5, "already defined"),

@@ -4,7 +4,6 @@ from __future__ import annotations
 import math
 import os
 import re
-import shutil
 import subprocess
 from pathlib import Path
 
@@ -16,6 +15,7 @@ from netgen.analysis.steady import solve_dc
 from netgen.assemble import assemble
 from netgen.cli import main
 from netgen.expr import evaluate
+from netgen.spice import raw
 from netgen.spice.netlist import netlist, write_netlist
 
 EXAMPLES = sorted((Path(__file__).resolve().parents[1] / "examples").glob("*.etn"))
@@ -350,48 +350,8 @@ def test_cli_export(tmp_path, capsys):
 
 # ---- an outside simulator ----------------------------------------------------------------------
 def read_raw(path: Path) -> dict[str, dict[str, np.ndarray]]:
-    """A SPICE raw file (binary or ASCII, real data) → {plot name: {vector name: values}}."""
-    data = path.read_bytes()
-    plots, pos = {}, 0
-    while pos < len(data):
-        header, names = {}, []
-        while True:
-            end = data.index(b"\n", pos)
-            line, pos = data[pos:end].decode("latin-1"), end + 1
-            if line.startswith("\t") and "Variables" in header:
-                names.append(line.split()[1])
-                continue
-            key, _, val = line.partition(":")
-            header[key.strip()] = val.strip()
-            if key in ("Binary", "Values"):
-                break
-        assert "complex" not in header["Flags"]
-        nv, npt = int(header["No. Variables"]), int(header["No. Points"])
-        if key == "Binary":
-            arr = np.frombuffer(data, "<f8", nv * npt, pos).reshape(npt, nv)
-            pos += 8 * nv * npt
-        else:  # each point: its index, then one value per variable
-            toks: list[bytes] = []
-            while len(toks) < npt * (nv + 1):
-                end = data.find(b"\n", pos)
-                end = len(data) if end < 0 else end
-                toks += data[pos:end].split()
-                pos = end + 1
-            arr = np.array(toks, dtype=float).reshape(npt, nv + 1)[:, 1:]
-        plots[header["Plotname"]] = {n.lower(): arr[:, i] for i, n in enumerate(names)}
-        while data[pos:pos + 1] == b"\n":
-            pos += 1
-    return plots
-
-
-@pytest.fixture
-def ngspice():
-    exe = shutil.which("ngspice")
-    if exe is None:
-        if os.environ.get("CI") == "true":
-            pytest.fail("ngspice is not installed on CI (apt-get install -y ngspice)")
-        pytest.skip("ngspice is not installed (apt-get install -y ngspice): no outside simulator to compare with")
-    return exe
+    """A SPICE raw file → {plot name: {vector name: values}} (netgen.spice.raw does the reading)."""
+    return {p.name: {n: np.real(p.data[:, i]) for i, n in enumerate(p.names)} for p in raw.read_raw(path)}
 
 
 def simulate(exe: str, text: str, tmp: Path, ascii: bool = False) -> dict[str, dict[str, np.ndarray]]:

@@ -90,7 +90,7 @@ def test_expressions_carry_dimensions(expr, value, unit):
     ("sin(1 K)", "needs a plain number"),
     ("2 ^ (1 K)", "exponent must be a plain number"),
     ("1 W/degC", "compound"),
-    ("5 xyz", "unexpected"),
+    ("5 xyz", "unknown unit `xyz`"),
     ("nosuch * 2", "unknown name `nosuch`"),
     ("frob(1)", "unknown function `frob`"),
     ("step(0 V, 1 A, 1 s)", "need one unit"),

@@ -2,13 +2,16 @@
 
 Each step of size h has a trapezoidal stage to t + γh and a BDF2 stage to t + h, γ = 2 − √2.
 Both stages solve with the same matrix C + d·h·J (d = γ/2), so a linear network needs one LU
-factorisation per step size and switch state. The local error estimate is Hosea and Shampine's,
+factorisation per step size and switch state, then back-substitutions only. A nonlinear one
+keeps its factorisation across Newton iterations and steps (modified Newton) and takes a fresh
+Jacobian only when Newton converges slowly. The local error estimate is Hosea and Shampine's,
 filtered through that matrix so algebraic unknowns do not inflate it.
 """
 from __future__ import annotations
 
 import math
 import warnings
+from collections import OrderedDict
 from dataclasses import dataclass
 
 import numpy as np
@@ -17,6 +20,7 @@ import scipy.sparse.linalg as spla
 
 from ..assemble import System
 from ..errors import SolveError
+from .steady import ORDERING
 
 GAMMA = 2.0 - math.sqrt(2.0)
 D = GAMMA / 2.0  # = (1 − γ)/(2 − γ)
@@ -27,80 +31,147 @@ K_ERR = (-3.0 * GAMMA**2 + 4.0 * GAMMA - 2.0) / (12.0 * (2.0 - GAMMA))
 # Absolute error floors per kind of unknown (ARCHITECTURE.md, default accuracy).
 ATOL = {"T": 1e-3, "V": 1e-6, "I": 1e-6, "Q": 1e-6}
 RTOL = 1e-4
+KEEP_FACTORS = 4  # factorisations kept for reuse (each is tens of MB on a large plate)
+SLOW = 0.5  # Newton contracting slower than this per iteration asks for a fresh Jacobian
+
+
+class Columns:
+    """Samples × unknowns, of which only some columns are stored; `[:, i]` of another raises.
+
+    The transient keeps derivatives only of the unknowns a signal can need them of (node
+    voltages and branch currents, for capacitor currents), not of every temperature of a mesh.
+    """
+
+    def __init__(self, data: np.ndarray, cols: np.ndarray, n: int):
+        self.data, self.n = data, n
+        self.pos = {int(c): k for k, c in enumerate(cols)}
+        self.shape = (data.shape[0], n)
+
+    def __getitem__(self, key):
+        rows, col = key
+        if col not in self.pos:
+            raise KeyError(f"the derivative of unknown {col} was not kept")
+        return self.data[rows, self.pos[col]]
+
+    def __len__(self):
+        return self.shape[0]
+
+
+class _Rows:
+    """Rows of n floats appended one at a time into one preallocated block. Untouched pages
+    of a large `np.empty` are never committed, so a generous capacity costs no memory."""
+
+    def __init__(self, n: int, capacity: int):
+        self.buf = np.empty((max(capacity, 4), n))
+        self.k = 0
+
+    def append(self, row) -> None:
+        if self.k == len(self.buf):
+            bigger = np.empty((int(len(self.buf) * 1.5) + 4, self.buf.shape[1]))
+            bigger[: self.k] = self.buf
+            self.buf = bigger
+        self.buf[self.k] = row
+        self.k += 1
+
+    def set(self, i: int, row) -> None:
+        self.buf[i] = row
+
+    def get(self, i: int) -> np.ndarray:
+        return self.buf[i]
+
+    def array(self) -> np.ndarray:
+        return self.buf[: self.k]
 
 
 @dataclass
 class Waveforms:
     time: np.ndarray
     x: np.ndarray  # (len(time), n)
-    xdot: np.ndarray
+    xdot: Columns | np.ndarray
     steps: int
     rejected: int
     factorizations: int
     left_rows: np.ndarray | None = None  # True where a sample is the limit from before a corner
     partial: bool = False
     message: str = ""
+    solves: int = 0  # back-substitutions
+    newton: int = 0  # Newton iterations (nonlinear networks)
 
 
 class _Factors:
-    """LU of C + d·h·J. Linear systems: cached by (h, switch state). Nonlinear ones: the last
-    factorisation is reused (simplified Newton) until Newton asks for a fresh Jacobian."""
+    """LU of C + d·h·J. Linear systems: kept by (h, switch state), the last few. Nonlinear ones:
+    the last factorisation is reused (modified Newton) until Newton asks for a fresh Jacobian."""
 
     def __init__(self, sys: System):
         self.sys = sys
-        self.cache: dict = {}
+        self.cache: OrderedDict = OrderedDict()
         self.count = 0
+        self.solves = 0
         self.last_key = None
         self.last_lu = None
 
     def get(self, h, state, x=None, fresh=False):
         key = (h, state)
         if self.sys.linear and key in self.cache:
+            self.cache.move_to_end(key)
             return self.cache[key]
         if not self.sys.linear and not fresh and key == self.last_key:
             return self.last_lu
-        M = (self.sys.C + (D * h) * self.sys.J(x, state)).tocsc()
+        M = self.sys.matrix(1.0, D * h, x, state)
         with warnings.catch_warnings():
             warnings.simplefilter("error", sp.linalg.MatrixRankWarning)
             try:
-                lu = spla.splu(M, permc_spec="COLAMD")
+                lu = spla.splu(M, permc_spec=ORDERING)
             except (RuntimeError, sp.linalg.MatrixRankWarning):
                 lu = None
         self.count += 1
         if self.sys.linear:
-            if len(self.cache) > 16:
-                self.cache.clear()
             self.cache[key] = lu
+            while len(self.cache) > KEEP_FACTORS:
+                self.cache.popitem(last=False)
         self.last_key, self.last_lu = key, lu
         return lu
 
+    def solve(self, lu, rhs):
+        self.solves += 1
+        return lu.solve(rhs)
 
-def _stage(sys, fac, h, state, rhs, t, x_guess, left, weights):
+
+def _stage(sys, fac, h, state, rhs, t, x_guess, left, weights, stats):
     """Solve C·y + d·h·F(y, t) = rhs for y. Returns (y, ok)."""
-    C = sys.C
-    y = x_guess.copy()
     if sys.linear:
         lu = fac.get(h, state)
         if lu is None:
-            return y, False
+            return x_guess.copy(), False
         # Linear: (C + dhG) y = rhs + dh·b(t)
-        y = lu.solve(rhs + D * h * sys.b(t, left))
+        y = fac.solve(lu, rhs + D * h * sys.b(t, left))
         return y, bool(np.all(np.isfinite(y)))
+    C = sys.C
+    y = x_guess.copy()
     lu = fac.get(h, state, y)
     fresh = False
+    prev = None
     for it in range(16):
         if lu is None:
             return y, False
         r = C @ y + D * h * sys.F(y, t, state, left) - rhs
-        dy = lu.solve(-r)
+        dy = fac.solve(lu, -r)
+        stats["newton"] += 1
         if not np.all(np.isfinite(dy)):
             return y, False
         y = y + dy
-        if np.max(np.abs(dy) / weights) < 1e-3:
+        size = float(np.max(np.abs(dy) / weights)) if len(dy) else 0.0
+        if size < 1e-3:
             return y, True
-        if it >= 2 and not fresh:
-            lu = fac.get(h, state, y, fresh=True)  # slow convergence: take a fresh Jacobian once
+        # Modified Newton contracts linearly; when it does so slowly (or not at all), a fresh
+        # Jacobian at the current iterate restores Newton's pace. Once per stage is enough.
+        slow = prev is not None and size > SLOW * prev
+        if (slow or it >= 2) and not fresh:
+            lu = fac.get(h, state, y, fresh=True)
             fresh = True
+            prev = None
+            continue
+        prev = size
     return y, False
 
 
@@ -116,12 +187,20 @@ def integrate(sys: System, x0: np.ndarray, t_end: float, max_step: float | None 
     alg = sys.algebraic_rows
     # The relative part of the error weight applies to temperatures' change from the start,
     # not to their absolute value: 1e-4 of 300 K would allow 30 mK per step.
-    is_temp = np.array([k == "T" for k in sys.kinds], dtype=bool)
+    kinds = np.array(sys.kinds)
+    is_temp = kinds == "T"
     offset = np.where(is_temp, x0, 0.0)
+    # Derivatives are kept only where a signal reads them: node voltages and branch currents.
+    keep_d = np.flatnonzero((kinds == "V") | (kinds == "I"))
     C = sys.C
     fac = _Factors(sys)
+    stats = {"newton": 0}
 
-    times, xs, xds, left_rows = [0.0], [x0.copy()], [np.zeros(n)], [False]
+    capacity = int(min(t_end / hmax, 1e7)) + 3 * len(corners) + 64
+    xs, xds = _Rows(n, capacity), _Rows(len(keep_d), capacity)
+    times, left_rows = [0.0], [False]
+    xs.append(x0)
+    xds.append(np.zeros(len(keep_d)))
     t, x = 0.0, x0.copy()
     state = sys.switch_state(0.0)
     z = -sys.F(x, t, state)  # C·x' at the start (right-hand limit of every source)
@@ -143,24 +222,24 @@ def integrate(sys: System, x0: np.ndarray, t_end: float, max_step: float | None 
         # Stage 1, trapezoidal to t + γh.
         hg = GAMMA * h
         rhs1 = C @ x + D * h * z  # (γh/2)·z = d·h·z
-        y1, ok = _stage(sys, fac, h, mid_state, rhs1, t + hg, x, False, weights)
+        y1, ok = _stage(sys, fac, h, mid_state, rhs1, t + hg, x, False, weights, stats)
         if ok:
             # Stage 2, BDF2 to t + h.
             rhs2 = C @ (A2 * y1 - B2 * x)
             t_new = t + h
-            x_new, ok = _stage(sys, fac, h, mid_state, rhs2, t_new, 2 * y1 - x, lands, weights)
+            x_new, ok = _stage(sys, fac, h, mid_state, rhs2, t_new, 2 * y1 - x, lands, weights, stats)
         if not ok:
             rejected += 1
             h *= 0.25
             if h < h_min:
-                return _partial(times, xs, xds, steps, rejected, fac, t, "the step size collapsed (Newton failed)",
-                                sys, x, y1 - x)
+                return _partial(times, xs, xds, keep_d, steps, rejected, fac, t,
+                                "the step size collapsed (Newton failed)", sys, x, y1 - x)
             continue
         z1 = (2.0 / hg) * (C @ (y1 - x)) - z
         z_new = (C @ (x_new - A2 * y1 + B2 * x)) / (D * h)
         est_rhs = 2.0 * K_ERR * h * (z / GAMMA - z1 / (GAMMA * (1 - GAMMA)) + z_new / (1 - GAMMA))
         lu = fac.get(h, mid_state, x_new)
-        est = lu.solve(est_rhs) if lu is not None else est_rhs
+        est = fac.solve(lu, est_rhs) if lu is not None else est_rhs
         w = atol + rtol * np.maximum(np.abs(x - offset), np.abs(x_new - offset))
         err = float(np.sqrt(np.mean((est / w) ** 2))) if n else 0.0
         if not math.isfinite(err):
@@ -169,11 +248,11 @@ def integrate(sys: System, x0: np.ndarray, t_end: float, max_step: float | None 
             rejected += 1
             h *= max(0.1, 0.9 * err ** (-1.0 / 3.0))
             if h < h_min:
-                return _partial(times, xs, xds, steps, rejected, fac, t, "the step size collapsed (error control)",
-                                sys, x, est / w)
+                return _partial(times, xs, xds, keep_d, steps, rejected, fac, t,
+                                "the step size collapsed (error control)", sys, x, est / w)
             continue
         if np.any(x_new[is_temp] <= 0):
-            return _partial(times, xs, xds, steps, rejected, fac, t,
+            return _partial(times, xs, xds, keep_d, steps, rejected, fac, t,
                             "a temperature would fall to absolute zero", sys, x,
                             np.where(is_temp & (x_new <= 0), 1.0, 0.0), "first at", "more heat is taken out there than "
                             "can flow in: check the signs of heat inputs and module currents, and the links to a reservoir")
@@ -182,8 +261,8 @@ def integrate(sys: System, x0: np.ndarray, t_end: float, max_step: float | None 
         xdot = (x_new - A2 * y1 + B2 * x) / (D * h)
         t, x = t_new if not lands else next_corner, x_new
         times.append(t)
-        xs.append(x.copy())
-        xds.append(xdot)
+        xs.append(x)
+        xds.append(xdot[keep_d])
         left_rows.append(False)
         factor = 0.9 * err ** (-1.0 / 3.0) if err > 0 else 5.0
         # Small increases are not worth a new factorisation: keep h unless it can grow by half.
@@ -194,14 +273,14 @@ def integrate(sys: System, x0: np.ndarray, t_end: float, max_step: float | None 
             # negligible length finds that consistent state; the stored ones barely move.
             state = sys.switch_state(t)
             eps = t_end * 1e-10
-            x_plus, ok = _stage(sys, fac, eps / D, state, C @ x, t, x, False, weights)
+            x_plus, ok = _stage(sys, fac, eps / D, state, C @ x, t, x, False, weights, stats)
             if ok and np.max(np.abs(x_plus - x) / weights) > 1e-6:
                 left_rows[-1] = True
                 times.append(t)
-                xs.append(x_plus.copy())
+                xs.append(x_plus)
                 # The derivative just after the corner; across every capacitor and inductor the
                 # stored quantity moved by O(eps), so these differences are the right-hand slopes.
-                xds.append((x_plus - x) / eps)
+                xds.append(((x_plus - x) / eps)[keep_d])
                 left_rows.append(False)
                 x = x_plus
             z = -sys.F(x, t, state)
@@ -211,12 +290,13 @@ def integrate(sys: System, x0: np.ndarray, t_end: float, max_step: float | None 
         h = h_next
         if progress is not None:
             progress(t, steps)
-    xds[0] = xds[1] if len(xds) > 1 else xds[0]
-    return Waveforms(np.array(times), np.array(xs), np.array(xds), steps, rejected, fac.count,
-                     left_rows=np.array(left_rows))
+    if xds.k > 1:
+        xds.set(0, xds.get(1))
+    return Waveforms(np.array(times), xs.array(), Columns(xds.array(), keep_d, n), steps, rejected, fac.count,
+                     left_rows=np.array(left_rows), solves=fac.solves, newton=stats["newton"])
 
 
-def _partial(times, xs, xds, steps, rejected, fac, t, why, sys=None, x=None, est=None,
+def _partial(times, xs, xds, keep_d, steps, rejected, fac, t, why, sys=None, x=None, est=None,
              label="the unknowns changing fastest:", hint=None) -> Waveforms:
     """Stop with a SolveError that carries the waveforms computed so far."""
     worst = ""
@@ -228,8 +308,8 @@ def _partial(times, xs, xds, steps, rejected, fac, t, why, sys=None, x=None, est
         hint or "look for a switch or source jump into a capacitor or inductor with no resistance, "
         "a module driven far past its limits, or loosen `tolerance`",
     )
-    n = len(xs[0]) if xs else 0
-    err.partial = Waveforms(np.array(times), np.array(xs).reshape(-1, n), np.array(xds).reshape(-1, n),
+    n = xs.buf.shape[1]
+    err.partial = Waveforms(np.array(times), xs.array(), Columns(xds.array(), keep_d, n),
                             steps, rejected, fac.count, left_rows=np.zeros(len(times), dtype=bool),
-                            partial=True, message=err.message)
+                            partial=True, message=err.message, solves=fac.solves)
     raise err

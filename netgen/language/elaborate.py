@@ -17,6 +17,7 @@ from ..design import (
 )
 from ..errors import NetgenError, NetgenErrors
 from ..expr import Const, Wave, evaluate
+from . import plate
 from .grammar import parser
 from .quantities import ExprReader, SIGNAL_KINDS, Typed, read_quantity
 
@@ -34,7 +35,7 @@ _TOKEN_WORDS = {
 
 STATEMENTS = (
     "design let mass fixed link heat ground resistor capacitor inductor source switch "
-    "thermoelectric material steady transient modes record expect audit part use include"
+    "thermoelectric material steady transient modes record expect audit part use include plate"
 ).split()
 
 
@@ -141,7 +142,11 @@ class Elaborator:
             if not isinstance(stmt, Tree):
                 continue
             try:
-                self.statement(stmt)
+                try:
+                    self.statement(stmt)
+                except RecursionError:
+                    raise self.err(stmt, "this statement nests too deeply to read",
+                                   "split a very long expression into several `let` steps") from None
             except NetgenError as e:
                 self.errors.append(e)
                 if len(self.errors) >= MAX_ERRORS or e.loc is None:
@@ -173,15 +178,15 @@ class Elaborator:
             tok = e.token
             expected = sorted({_TOKEN_WORDS.get(t, f"`{t.lower()}`") for t in e.expected if not t.startswith("__")})
             if tok.type == "$END":
-                what = "the end of the file"
+                what = "end of the file"
             elif tok.type == "_NL":
-                what = "the end of the line"
+                what = "end of the line"
             else:
                 what = f"`{tok}`"
             hint = None
             prev = text[: col - 1].rstrip()
             if tok.type == "NAME" and prev and (prev[-1].isdigit()):
-                hint = _unit_hint(str(tok))
+                return NetgenError(f"unknown unit `{tok}`", loc, _unit_hint(str(tok)))
             elif (col == 1 or not prev) and str(tok) in NOT_YET:
                 return NetgenError(f"`{tok}` is not supported yet by this version of netgen", loc, NOT_YET[str(tok)])
             elif col == 1 or not prev:
@@ -246,6 +251,8 @@ class Elaborator:
         t = self.typed(tree)
         dims = dims if isinstance(dims, tuple) else (dims,)
         self.need_dim(tree, t, dims, what)
+        if isinstance(t.expr, Const) and not math.isfinite(t.value):
+            raise self.err(tree, f"{what} is not a finite number")
         return Wave(t.expr, U.unit_name(t.dim)), t.dim
 
     # ---- nodes -------------------------------------------------------------------
@@ -302,6 +309,8 @@ class Elaborator:
         if U.is_unit_word(name):
             raise self.err(name_tok, f"`{name}` is a unit symbol and cannot name a parameter", "choose another name")
         typed = self.typed(value)
+        if isinstance(typed.expr, Const) and not math.isfinite(typed.value):
+            raise self.err(value, f"`{name}` is not a finite number")
         if in_part and name in self.bindings:
             given = self.bindings.pop(name)
             if given.dim != typed.dim:
@@ -659,6 +668,9 @@ class Elaborator:
             (self.prefix, self.ports, self.local_names, self.bindings, self.params, self.param_locs,
              self.file, self.lines) = saved
 
+    def st_plate(self, t):
+        plate.elaborate(self, t)
+
     def st_include(self, t):
         tok = t.children[0]
         rel = str(tok)[1:-1]
@@ -698,6 +710,7 @@ class Elaborator:
 
     def finish(self):
         """What can only be judged once the whole file is read."""
+        plate.finish(self)  # edges join their plate once everything that attaches to them is read
         self.finish_signals()
         d = self.design
         tr = d.transient

@@ -141,6 +141,11 @@ class ExprReader:
         if name in self.params:
             p = self.params[name]
             return Typed(p.expr, p.dim, p.celsius)
+        loc = self.loc_of(tree)
+        before = loc.text[: loc.col - 1] if loc.text else ""
+        if len(before) >= 2 and before[-1] in "*/" and not before[-2].isspace():
+            # Written straight after `J/` or `W*`: this was meant as part of a unit.
+            raise self.err(tree, f"unknown unit `{name}`", U._suggest(name))
         close = difflib.get_close_matches(name, list(self.params) + list(RESERVED), n=1)
         hint = f"did you mean `{close[0]}`?" if close else "define it first with `let NAME = VALUE`"
         if U.is_unit_word(name):
@@ -156,6 +161,9 @@ class ExprReader:
         arg_trees = [c for c in tree.children[1:] if c is not None]
         if fname in SIGNAL_KINDS and self.signals_ok:
             return self._signal(tree, fname, arg_trees)
+        if fname in SIGNAL_KINDS and fname not in FUNCTIONS + SHAPES:
+            raise self.err(tree, f"signal `{fname}(...)` is only allowed in `expect` and `record`",
+                           "results are not known while the design is read")
         args = [self._read(a) for a in arg_trees]
         if fname in FUNCTIONS:
             return self._function(tree, fname, args)

@@ -63,6 +63,7 @@ class Names:
     stems: dict[str, str]
     signals: dict[str, str] = field(default_factory=dict)
     rows: list[tuple[str, str]] = field(default_factory=list)
+    edge: float = 0.0  # the widest edge a jump became, s (0 until the netlist is written)
 
 
 def names(d: Design) -> Names:
@@ -459,6 +460,7 @@ def netlist(design: Design) -> tuple[str, Names]:
     nm = w.names
     nm.signals = {_signal(design, n): f"V({s})" for n, s in nm.nodes.items() if s != "0"}
     w.write()
+    nm.edge = w.edge
     sys = assemble(design)
     tr = design.transient
     want_op = design.steady is not None or tr is None  # with no analysis we solve the steady state

@@ -1,0 +1,195 @@
+"""Fast reading of plain one-line statements into the very trees lark builds; lark reads the rest.
+
+Large generated descriptions (a mesh written out as 30,000 `mass` and `link` lines) are almost
+all statements of a few fixed shapes: a keyword, names, one value that is a number with its
+unit or a parameter name, perhaps `start VALUE`. Such a line, standing alone at the top level,
+is matched here by a regular expression built from the grammar's own NAME and QUANTITY
+terminals and turned into the Tree lark would give (same rule names, tokens, positions). Every
+other line, and everything inside `{ ... }`, goes to lark in runs, padded so that its line
+and positions are moved to those in the file; so syntax errors read exactly as before. tests/test_lines.py
+checks the trees against lark's on a corpus of lines.
+"""
+from __future__ import annotations
+
+import re
+
+from lark import Token, Tree
+from lark.exceptions import UnexpectedInput
+from lark.tree import Meta
+
+# keyword → (names after it, whether a value follows, whether the rule has attrs, `start` allowed)
+SHAPES = {
+    "mass": (1, True, True, True),
+    "fixed": (1, True, False, False),
+    "link": (3, True, False, False),
+    "heat": (2, True, False, False),
+    "ground": (1, False, False, False),
+    "resistor": (3, True, True, False),
+    "capacitor": (3, True, True, True),
+    "inductor": (3, True, True, True),
+}
+_BRACES = re.compile(r'"[^"\n]*"|#.*|[{}]')
+_BLANK = re.compile(r"[ \t]*(?:#[^\n]*)?\r?")
+
+
+def _plain(pattern: str) -> str:
+    """A terminal's regexp with its capturing groups made non-capturing."""
+    return re.sub(r"(?<!\\)\((?!\?)", "(?:", pattern)
+
+
+class LineReader:
+    """Parses `start` text line by line, with `lark` (a Lark LALR parser) for what is not plain."""
+
+    def __init__(self, lark):
+        self.lark = lark
+        name = _plain(lark.get_terminal("NAME").pattern.to_regexp())
+        qty = _plain(lark.get_terminal("QUANTITY").pattern.to_regexp())
+        self.name_re, self.qty_re = re.compile(name), re.compile(qty)
+        value = rf"(?P<v>(?P<vq>{qty})|{name})"
+        start_value = rf"(?P<s>(?P<sq>{qty})|{name})"
+        tail = r"[ \t]*(?:#[^\n]*)?\r?$"
+        self.res = {}
+        for kw, (k, has_value, _, start_ok) in SHAPES.items():
+            pat = rf"[ \t]*(?P<kw>{kw})" + "".join(rf"[ \t]+(?P<n{i}>{name})" for i in range(k))
+            if has_value:
+                pat += rf"[ \t]+{value}"
+            if start_ok:
+                pat += rf"(?:[ \t]+(?P<sk>start)[ \t]+{start_value})?"
+            self.res[kw] = re.compile(pat + tail)
+        self.first_word = re.compile(r"[ \t]*([a-z]+)")
+
+    # ---- one line ---------------------------------------------------------------------
+    def line_tree(self, line: str, lineno: int, offset: int) -> Tree | None:
+        """The statement tree of one plain line, or None when lark must read it."""
+        w = self.first_word.match(line)
+        if w is None:
+            return None
+        rx = self.res.get(w.group(1))
+        if rx is None:
+            return None
+        m = rx.match(line)
+        if m is None:
+            return None
+        kw = m.group("kw")
+        k, has_value, has_attrs, _ = SHAPES[kw]
+
+        def token(kind, group):
+            a, b = m.span(group)
+            return Token(kind, m.group(group), offset + a, lineno, a + 1, lineno, b + 1, offset + b)
+
+        def atom(group, quantity_group):
+            a, b = m.span(group)
+            if m.group(quantity_group) is not None:
+                # Lark's lexer takes the first QUANTITY match here; the line's split must agree.
+                if self.qty_re.match(line, a).end() != b:
+                    return None
+                return Tree("number", [token("QUANTITY", group)], _meta(lineno, a, b, offset))
+            return Tree("name", [token("NAME", group)], _meta(lineno, a, b, offset))
+
+        children: list = [token("NAME", f"n{i}") for i in range(k)]
+        end = m.end(f"n{k - 1}")
+        if has_value:
+            v = atom("v", "vq")
+            if v is None:
+                return None
+            children.append(v)
+            end = m.end("v")
+        if has_attrs:
+            if "sk" in m.re.groupindex and m.group("sk") is not None:
+                s = atom("s", "sq")
+                if s is None:
+                    return None
+                a = m.start("sk")
+                b = m.end("s")
+                attr = Tree("attr_start", [s], _meta(lineno, a, b, offset))
+                children.append(Tree("attrs", [attr], _meta(lineno, a, b, offset)))
+                end = b
+            else:
+                children.append(Tree("attrs", [], Meta()))
+        return Tree(kw, children, _meta(lineno, m.start("kw"), end, offset))
+
+    # ---- a whole text -------------------------------------------------------------------
+    def parse(self, text: str) -> Tree:
+        children: list = []
+        lines = text.split("\n")
+        depth = 0
+        offset = 0
+        run_start = None  # (line index, offset) of the lines waiting for lark
+
+        def flush(upto_offset):
+            nonlocal run_start
+            if run_start is not None:
+                i0, o0 = run_start
+                run_start = None
+                try:
+                    tree = self.lark.parse(text[o0:upto_offset], start="start")
+                except UnexpectedInput as e:
+                    _shift_error(e, i0, o0)
+                    raise
+                for stmt in tree.children:
+                    _shift(stmt, i0, o0)
+                    children.append(stmt)
+
+        for i, line in enumerate(lines):
+            nxt = offset + len(line) + 1
+            if depth == 0:
+                tree = self.line_tree(line, i + 1, offset)
+                if tree is not None:
+                    flush(offset)
+                    children.append(tree)
+                    offset = nxt
+                    continue
+                if _BLANK.fullmatch(line):
+                    flush(offset)
+                    offset = nxt
+                    continue
+            if run_start is None:
+                run_start = (i, offset)
+            for b in _BRACES.findall(line):
+                if b == "{":
+                    depth += 1
+                elif b == "}":
+                    depth = max(0, depth - 1)
+            offset = nxt
+        flush(len(text))
+        meta = Meta()
+        return Tree("start", children, meta)
+
+
+def _shift(item, lines: int, chars: int) -> None:
+    """Move the positions of a tree parsed from a piece of the text to those in the whole text."""
+    if isinstance(item, Token):
+        if item.line is not None:
+            item.line += lines
+            item.end_line += lines
+            item.start_pos += chars
+            item.end_pos += chars
+        return
+    if isinstance(item, Tree):
+        m = item.meta
+        if not m.empty:
+            m.line += lines
+            m.end_line += lines
+            m.start_pos += chars
+            m.end_pos += chars
+        for c in item.children:
+            _shift(c, lines, chars)
+
+
+def _shift_error(e: UnexpectedInput, lines: int, chars: int) -> None:
+    if isinstance(getattr(e, "line", None), int) and e.line > 0:
+        e.line += lines
+    if isinstance(getattr(e, "pos_in_stream", None), int) and e.pos_in_stream >= 0:
+        e.pos_in_stream += chars
+    tok = getattr(e, "token", None)
+    if isinstance(tok, Token) and tok.type != "$END":
+        _shift(tok, lines, chars)
+
+
+def _meta(lineno: int, a: int, b: int, offset: int) -> Meta:
+    m = Meta()
+    m.empty = False
+    m.line = m.end_line = lineno
+    m.column, m.end_column = a + 1, b + 1
+    m.start_pos, m.end_pos = offset + a, offset + b
+    return m

@@ -1,0 +1,224 @@
+"""The `plate` statement: a rectangular plate laid out as a grid of masses and links, cells and edges named.
+
+    plate NAME ROWS by COLS  cell W [by H]  thickness T  density RHO  specific heat CP  conductivity K  [start TEMP]
+    plate NAME ROWS by COLS  capacity C  conductance G [by G2]  [start TEMP]
+
+Cell `NAME.rIcJ` (row I from the top, column J from the left, both from 1) is a mass; each cell
+is linked to its four neighbours (`NAME.rIcJ_rIcJ+1` along a row, `NAME.rIcJ_rI+1cJ` down a
+column). The edges `NAME.left`, `NAME.right`, `NAME.top` and `NAME.bottom` are thermal nodes on
+the plate's boundary, joined to the cells along them through half a cell (`NAME.rIc1_left` ...);
+an edge exists only when another statement names it, since an edge node left on its own would
+tie the cells along it together as if a bar were clamped there.
+
+The plate expands into ordinary `Node`s and `Link`s in the Design, so every later stage (the
+checks, the assembler, the signals, the netlist) sees the hand-written equivalent.
+"""
+from __future__ import annotations
+
+import difflib
+import re
+from dataclasses import dataclass
+
+from .. import units as U
+from ..design import THERMAL, Link, Loc, Node
+from ..errors import NetgenError
+
+EDGES = ("left", "right", "top", "bottom")
+MAX_CELLS = 4_000_000  # 4e6 cells is several GB of model; more is surely a typing slip
+MATERIAL = ("cell", "thickness", "density", "specific_heat", "conductivity")
+PER_CELL = ("capacity", "conductance")
+_WORDS = {"specific_heat": "specific heat"}
+_CELL = re.compile(r"r([0-9]+)c([0-9]+)")
+
+
+@dataclass
+class Layout:
+    """One elaborated plate: what the edges need once the whole file is read."""
+
+    name: str
+    rows: int
+    cols: int
+    g_row: float  # between neighbours in a row (column to column), W/K
+    g_col: float  # between neighbours in a column (row to row), W/K
+    loc: Loc
+
+    def cell(self, i: int, j: int) -> str:
+        return f"{self.name}.r{i}c{j}"
+
+    def edge_cells(self, edge: str) -> list[tuple[int, int]]:
+        if edge in ("left", "right"):
+            j = 1 if edge == "left" else self.cols
+            return [(i, j) for i in range(1, self.rows + 1)]
+        i = 1 if edge == "top" else self.rows
+        return [(i, j) for j in range(1, self.cols + 1)]
+
+
+def layouts(el) -> list[Layout]:
+    """The plates read so far by an Elaborator (kept on it, since a plate lives as long as its read)."""
+    found = getattr(el, "plates", None)
+    if found is None:
+        found = []
+        el.plates = found
+    return found
+
+
+def _attrs(el, tree) -> dict:
+    out: dict = {}
+    for a in tree.children if tree is not None else ():
+        key = a.data[len("plate_"):]
+        if key in out:
+            raise el.err(a, f"`{_WORDS.get(key, key)}` is given twice")
+        out[key] = a
+    return out
+
+
+def _count(el, tree, what: str) -> int:
+    v = el.const(tree, U.NONE, what, positive=True)
+    if v != int(v):
+        raise el.err(tree, f"{what} must be a whole number, not {v:g}")
+    return int(v)
+
+
+def elaborate(el, t) -> None:
+    """Expand a `plate` statement into masses and links on the Elaborator's Design."""
+    name_tok, rows_t, cols_t, attrs_t = t.children
+    el.element_name(name_tok)  # reserves the name: no element, part instance or plate may reuse it
+    name = el.prefix + str(name_tok)
+    loc = el.loc(name_tok)
+    rows = _count(el, rows_t, "the number of rows")
+    cols = _count(el, cols_t, "the number of columns")
+    if rows * cols > MAX_CELLS:
+        raise el.err(rows_t, f"a plate of {rows} by {cols} cells is too large (at most {MAX_CELLS:,} cells)",
+                     "use larger cells")
+    at = _attrs(el, attrs_t)
+    material = [k for k in MATERIAL if k in at]
+    per_cell = [k for k in PER_CELL if k in at]
+    example = ("e.g. `cell 2 mm  thickness 1.5 mm  density 2700 kg/m^3  specific heat 900 J/(kg*K)  "
+               "conductivity 200 W/(m*K)`, or `capacity 0.1 J/K  conductance 0.3 W/K`")
+    if material and per_cell:
+        raise el.err(at[per_cell[0]], f"plate `{name}` is given both by its material ({', '.join(material)}) "
+                     f"and per cell ({', '.join(per_cell)})", "give one of the two")
+    if per_cell:
+        missing = [k for k in PER_CELL if k not in at]
+        if missing:
+            raise el.err(name_tok, f"plate `{name}` needs `{missing[0]}` too", example)
+        cap = el.const(at["capacity"].children[0], U.HEAT_CAPACITY, "a cell's heat capacity", positive=True)
+        g1_t, g2_t = at["conductance"].children
+        g_row = el.const(g1_t, U.THERMAL_CONDUCTANCE, "a conductance between cells", positive=True)
+        g_col = el.const(g2_t, U.THERMAL_CONDUCTANCE, "a conductance between cells", positive=True) \
+            if g2_t is not None else g_row
+    elif material:
+        missing = [_WORDS.get(k, k) for k in MATERIAL if k not in at]
+        if missing:
+            raise el.err(name_tok, f"plate `{name}` needs {', '.join('`' + m + '`' for m in missing)}", example)
+        w_t, h_t = at["cell"].children
+        width = el.const(w_t, U.LENGTH, "a cell width", positive=True)
+        height = el.const(h_t, U.LENGTH, "a cell height", positive=True) if h_t is not None else width
+        thick = el.const(at["thickness"].children[0], U.LENGTH, "a thickness", positive=True)
+        rho = el.const(at["density"].children[0], U.DENSITY, "a density", positive=True)
+        cp = el.const(at["specific_heat"].children[0], U.SPECIFIC_HEAT, "a specific heat", positive=True)
+        k = el.const(at["conductivity"].children[0], U.CONDUCTIVITY, "a thermal conductivity", positive=True)
+        cap = rho * cp * width * height * thick
+        g_row = k * thick * height / width  # across the face between two cells side by side
+        g_col = k * thick * width / height
+    else:
+        raise el.err(name_tok, f"plate `{name}` needs its material or its per-cell values", example)
+    start = None
+    if "start" in at:
+        start = el.const(at["start"].children[0], U.TEMPERATURE, "a start temperature", positive=True)
+
+    lay = Layout(name, rows, cols, g_row, g_col, loc)
+    _cells(el, lay, cap, start)
+    _links(el, lay)
+    layouts(el).append(lay)
+
+
+def _cells(el, lay: Layout, cap: float, start: float | None) -> None:
+    nodes = el.design.nodes
+    names = [lay.cell(i, j) for i in range(1, lay.rows + 1) for j in range(1, lay.cols + 1)]
+    for nm in nodes.keys() & set(names):  # named before the plate: a heat input, a link ...
+        n = nodes[nm]
+        if n.domain != THERMAL:
+            raise NetgenError(f"node `{nm}` is {n.domain} (first used at line {n.loc.line}) but is a cell of "
+                              f"plate `{lay.name}`", lay.loc, "a node belongs to one domain")
+        if n.capacity is not None:
+            raise NetgenError(f"mass `{nm}` is already defined at line {n.loc.line}, and is a cell of "
+                              f"plate `{lay.name}`", lay.loc, "rename the mass or the plate")
+    for nm in names:
+        n = nodes.get(nm)
+        if n is None:
+            nodes[nm] = Node(nm, THERMAL, lay.loc, cap, start)
+        else:
+            n.capacity, n.start, n.loc = cap, start, lay.loc
+
+
+def _add_links(el, lay: Layout, triples: list[tuple[str, str, str]], g: float) -> None:
+    taken = el.element_locs.keys() & {t[0] for t in triples}
+    if taken:
+        first = min(taken)
+        raise NetgenError(f"element `{first}` is already defined at line {el.element_locs[first].line}, and is a "
+                          f"link of plate `{lay.name}`", lay.loc, "rename the element or the plate")
+    loc = lay.loc
+    el.element_locs.update((t[0], loc) for t in triples)
+    el.design.elements.extend(Link(nm, loc, a=a, b=b, conductance=g) for nm, a, b in triples)
+
+
+def _links(el, lay: Layout) -> None:
+    R, C, p = lay.rows, lay.cols, lay.name
+    along = [(f"{p}.r{i}c{j}_r{i}c{j + 1}", f"{p}.r{i}c{j}", f"{p}.r{i}c{j + 1}")
+             for i in range(1, R + 1) for j in range(1, C)]
+    down = [(f"{p}.r{i}c{j}_r{i + 1}c{j}", f"{p}.r{i}c{j}", f"{p}.r{i + 1}c{j}")
+            for i in range(1, R) for j in range(1, C + 1)]
+    _add_links(el, lay, along, lay.g_row)
+    _add_links(el, lay, down, lay.g_col)
+
+
+def finish(el) -> None:
+    """Once the whole file is read: join each edge that something attaches to, and reject names
+    under a plate that are neither a cell nor an edge. Errors go to `el.errors`."""
+    plates = {p.name: p for p in layouts(el)}
+    if not plates:
+        return
+    nodes = el.design.nodes
+    own = {id(p.loc) for p in plates.values()}  # the plates' own cells carry their plate's Loc
+    for p in plates.values():
+        for edge in EDGES:
+            node = nodes.get(f"{p.name}.{edge}")
+            if node is None:
+                continue
+            if node.domain != THERMAL:
+                el.errors.append(NetgenError(f"`{node.name}` is an edge of plate `{p.name}`, a thermal node, but "
+                                             "is used here as electrical", node.loc))
+                continue
+            g = 2.0 * (p.g_row if edge in ("left", "right") else p.g_col)  # cell centre to the edge: half a cell
+            triples = [(f"{p.cell(i, j)}_{edge}", p.cell(i, j), node.name) for i, j in p.edge_cells(edge)]
+            try:
+                _add_links(el, p, triples, g)
+            except NetgenError as e:
+                el.errors.append(e)
+    for n in nodes.values():
+        if "." not in n.name or id(n.loc) in own:
+            continue
+        head = n.name
+        while "." in head:
+            head, _, _ = head.rpartition(".")
+            p = plates.get(head)
+            if p is None:
+                continue
+            rest = n.name[len(head) + 1:]
+            if rest in EDGES:
+                break
+            m = _CELL.fullmatch(rest)
+            if m and 1 <= int(m.group(1)) <= p.rows and 1 <= int(m.group(2)) <= p.cols:
+                break
+            cells = f"its cells are {head}.r1c1 to {head}.r{p.rows}c{p.cols} (row, then column)"
+            if m:
+                el.errors.append(NetgenError(
+                    f"`{rest}` is outside plate `{p.name}`, which has {p.rows} rows and {p.cols} columns",
+                    n.loc, cells))
+                break
+            close = difflib.get_close_matches(rest, list(EDGES) + ["r1c1", f"r{p.rows}c{p.cols}"], n=1)
+            el.errors.append(NetgenError(
+                f"plate `{p.name}` has no cell or edge `{rest}`", n.loc,
+                (f"did you mean `{head}.{close[0]}`? " if close else "") + cells + "; its edges are " + ", ".join(f"{head}.{e}" for e in EDGES)))
+            break

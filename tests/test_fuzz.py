@@ -1,0 +1,93 @@
+"""A fuzzer over the examples: mutated descriptions give a result or a clean located error, never
+a traceback or a hang. Seed-pinned; `NETGEN_FUZZ_EXAMPLES=5000 python -m pytest tests/test_fuzz.py`
+runs a longer search locally."""
+import math
+import os
+from pathlib import Path
+
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from netgen.errors import NetgenError
+from netgen.language import load_text
+
+ROOT = Path(__file__).resolve().parents[1]
+EXAMPLES = sorted((ROOT / "examples").glob("*.etn"))
+TEXTS = {p.name: p.read_text() for p in EXAMPLES}
+UNITS = ["K", "degC", "W", "J/K", "W/K", "K/W", "V", "A", "ohm", "mohm", "H", "F", "uF", "s", "ms", "Hz",
+         "V/K", "1/K", "%", "mm^2", "W/(m*K)", "kW", "Gohm", "mK", "xyz", "J/Kg"]
+NUMBERS = ["0", "-1", "1e300", "1e-300", "3.5", "-0", "1e999", "100000", "2"]
+RUN_LIMIT = 20  # transient steps the fuzzer lets a mutated design take: it checks robustness, not physics
+
+
+def mutate(text: str, ops: list[tuple[int, int, int]]) -> str:
+    lines = text.splitlines()
+    for op, i, j in ops:
+        if not lines:
+            break
+        li = i % len(lines)
+        words = lines[li].split(" ")
+        wi = j % max(1, len(words))
+        if op == 0:  # delete a word
+            del words[wi]
+        elif op == 1:  # duplicate a word
+            words.insert(wi, words[wi] if words else "")
+        elif op == 2 and len(words) > 1:  # swap neighbouring words
+            k = (wi + 1) % len(words)
+            words[wi], words[k] = words[k], words[wi]
+        elif op == 3:  # delete the line
+            del lines[li]
+            continue
+        elif op == 4:  # duplicate the line
+            lines.insert(li, lines[li])
+            continue
+        elif op == 5:  # swap two lines
+            k = j % len(lines)
+            lines[li], lines[k] = lines[k], lines[li]
+            continue
+        elif op == 6:  # change a unit
+            words[wi] = UNITS[(i + j) % len(UNITS)]
+        elif op == 7:  # change a number
+            words[wi] = NUMBERS[(i * 7 + j) % len(NUMBERS)]
+        elif op == 8:  # drop one character
+            w = words[wi]
+            if w:
+                words[wi] = w[: j % len(w)] + w[j % len(w) + 1:]
+        lines[li] = " ".join(words)
+    return "\n".join(lines) + "\n"
+
+
+def run_small(design) -> None:
+    """Solve, with the transient shortened so each case stays cheap."""
+    tr = design.transient
+    if tr is not None:
+        step = tr.step or tr.until / 200
+        tr.until = min(tr.until, RUN_LIMIT * step)
+        tr.step = min(step, tr.until)
+    design.run()
+
+
+@settings(max_examples=int(os.environ.get("NETGEN_FUZZ_EXAMPLES", "250")), deadline=None, derandomize=True,
+          suppress_health_check=[HealthCheck.too_slow])
+@given(name=st.sampled_from(sorted(TEXTS)),
+       ops=st.lists(st.tuples(st.integers(0, 8), st.integers(0, 500), st.integers(0, 50)), min_size=1, max_size=4))
+def test_mutated_examples_never_crash(name, ops):
+    text = mutate(TEXTS[name], ops)
+    try:
+        design = load_text(text, str(ROOT / "examples" / name))
+    except NetgenError as e:
+        rendered = e.render()
+        assert "error:" in rendered
+        if e.loc is not None:
+            assert e.loc.line >= 1 and e.loc.col >= 1
+        return
+    try:
+        run_small(design)
+    except NetgenError as e:
+        assert "error:" in e.render()
+
+
+def test_mutation_changes_text():
+    assert mutate("a b c\n", [(0, 0, 0)]) == "b c\n"
+    assert mutate("a b c\nd\n", [(3, 1, 0)]) == "a b c\n"
+    assert not math.isnan(len(NUMBERS))
