@@ -12,7 +12,6 @@ that pattern: no sparse additions or format conversions inside Newton or the tim
 """
 from __future__ import annotations
 
-import math
 from collections import defaultdict
 from dataclasses import dataclass, field
 
@@ -136,6 +135,14 @@ class System:
 
     def __post_init__(self):
         n = self.n
+        for key in ("a", "b", "k"):
+            self.te.setdefault(key, np.zeros(0, _I))
+        for key in ("S", "R"):
+            self.te.setdefault(key, np.zeros(0))
+        for key in ("a", "b", "t", "h"):
+            self.nres.setdefault(key, np.zeros(0, _I))
+        for key in ("alpha", "ref", "R0"):
+            self.nres.setdefault(key, np.zeros(0))
         # Sources: each distinct expression is evaluated once per call and scattered to its rows.
         self._distinct: list[Wave] = []
         groups: dict = {}
@@ -254,7 +261,7 @@ class System:
         fv += [i, -i, -u * i]
         if jacobian:
             jv += [g, -g, u * dg, -g, g, -u * dg, -2 * u * g, 2 * u * g, -u * u * dg]
-        tev_f, tev_j = [], []
+        tev_f = []
         for grp in self.tev_groups:
             Ta, Tb, I = xe[grp.a], xe[grp.b], xe[grp.k]
             Tm = 0.5 * (Ta + Tb)

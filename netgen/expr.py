@@ -186,8 +186,8 @@ def _pulse(t, low, high, delay, rise, fall, width, period, left):
     if period > 0:
         tau = np.where(tau >= 0, np.mod(tau, period), tau)
     out = np.full_like(tau, low, dtype=float)
-    if rise > 0:
-        r = (tau >= 0) & (tau < rise)
+    if rise > 0:  # from the left, the rise's last instant belongs to it: the value is `high` there
+        r = (tau >= 0) & (tau < rise) if not left else (tau > 0) & (tau <= rise)
         out = np.where(r, low + (high - low) * tau / rise, out)
     top_start = rise
     top_end = rise + width

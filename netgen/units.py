@@ -10,11 +10,22 @@ from fractions import Fraction
 _BASES = ("kg", "m", "s", "A", "K")
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class Dim:
     """Exponents of the SI base dimensions (kg, m, s, A, K)."""
 
     exps: tuple = (Fraction(0),) * 5
+
+    def __post_init__(self):
+        # Compared as integer pairs: the reader compares dimensions a few times per statement,
+        # and Fraction's own comparison made that a third of reading a large mesh.
+        object.__setattr__(self, "_key", tuple((Fraction(e).numerator, Fraction(e).denominator) for e in self.exps))
+
+    def __eq__(self, other) -> bool:
+        return self is other or (isinstance(other, Dim) and self._key == other._key)
+
+    def __hash__(self) -> int:
+        return hash(self._key)
 
     def __mul__(self, other: "Dim") -> "Dim":
         return Dim(tuple(a + b for a, b in zip(self.exps, other.exps)))

@@ -106,3 +106,13 @@ def test_bad_input_is_located(tmp_path, monkeypatch, capsys, name, text, line, c
 
 def test_there_are_at_least_forty_cases():
     assert len(CASES) >= 40
+
+
+def test_several_errors_are_all_reported(tmp_path, monkeypatch, capsys):
+    """Each bad statement gets its own located error, not only the first."""
+    (tmp_path / "many.etn").write_text("mass a 1 W\nmass b -2 J/K\nfixed r 300 K\nlink l a r 1 V\nlink q b r 1 W/K\n")
+    monkeypatch.chdir(tmp_path)
+    assert main(["check", "many.etn"]) == 2
+    err = capsys.readouterr().err
+    assert "many.etn:1:8: error:" in err and "many.etn:2:8: error:" in err and "many.etn:4:12: error:" in err
+    assert "3 errors" in err

@@ -64,7 +64,7 @@ def small_plots(ngspice, tmp_path_factory):
 @pytest.mark.parametrize("form", ["binary", "ascii"])
 def test_raw_plots_and_vectors(small_plots, form):
     plots = small_plots[form]
-    assert [p.name.split()[0] for p in plots] == ["Operating", "Transient", "AC"]
+    assert sorted(p.name.split()[0] for p in plots) == ["AC", "Operating", "Transient"]  # ngspice runs .ac first
     op, tran, ac = (find_plot(plots, n) for n in ("Operating Point", "Transient Analysis", "AC Analysis"))
     assert {"v(in)", "v(out)", "i(v1)"} <= set(op.names) and "V(OUT)" in op  # names ignore case
     assert op.data.shape == (1, len(op.names))
@@ -100,6 +100,8 @@ def test_raw_binary_and_ascii_agree(small_plots):
         assert (b.name, b.names) == (a.name, a.names)
         # ASCII keeps 16 significant digits.
         assert np.allclose(a.data, b.data, rtol=1e-14, atol=1e-300)
+    ac = find_plot(small_plots["binary"], "AC")
+    assert np.all(ac["frequency"].imag == 0)  # ngspice writes garbage there; the reader drops it
 
 
 def test_raw_reader_rejects_damaged_files(ngspice, tmp_path):
@@ -110,7 +112,7 @@ def test_raw_reader_rejects_damaged_files(ngspice, tmp_path):
         read_raw(data[: data.index(b"Binary:") + 20])
     with pytest.raises(RawError, match="header"):
         read_raw(b"Title: x\nPlotname: y\n")
-    head = data[: data.index(b"Binary:")].replace(b"No. Variables: 3", b"No. Variables: 4")
+    head = data[: data.index(b"Binary:")].replace(b"No. Variables: 4", b"No. Variables: 5", 1)
     with pytest.raises(RawError, match="variables"):
         read_raw(head + data[data.index(b"Binary:"):])
     text = b"Title: t\nPlotname: p\nFlags: real\nNo. Variables: 2\nNo. Points: 1\nVariables:\n\t0\ttime\ttime\n\t1\tv(a)\tvoltage\nValues:\n0\t0.0\n\tnot-a-number\n"
@@ -200,10 +202,11 @@ def test_compare_names_the_signal_that_differs(cooler_self):
     row = next(r for r in rep.transient if r.signal == "T(sink)")
     assert row.dev == pytest.approx(0.05) and row.at > 100
     assert "MISMATCH in T(sink)" in rep.table()
-    # --rtol scales every tolerance: ten times looser still fails 50 mK on an 8 mK tolerance...
-    assert not compare(ours, nm, plots, Tolerances.from_rtol(1e-2)).passed
-    # ...and a hundred times looser (floor 0.5 K) lets it pass.
-    assert compare(ours, nm, plots, Tolerances.from_rtol(1e-1)).passed
+    # --rtol scales every tolerance: 5 mK + 1e-3 of the sink's 3.5 K swing is 8.5 mK; ten times
+    # that (--rtol 1e-2) is 85 mK and lets 50 mK pass.
+    row_tol = next(r for r in rep.transient if r.signal == "T(sink)").tol
+    assert row_tol == pytest.approx(5e-3 + 1e-3 * np.ptp(ours.waveforms["T(sink)"]))
+    assert compare(ours, nm, plots, Tolerances.from_rtol(1e-2)).passed
 
 
 def test_compare_widens_only_around_jumps(cooler_self):
@@ -217,8 +220,7 @@ def test_compare_widens_only_around_jumps(cooler_self):
         tran.data[i, tran.names.index("v(e_p)")] += 0.5  # V(p) jumps by 1.47 V at 1 s
         rep = compare(ours, nm, plots, Tolerances())
         assert rep.passed == passes, rep.table()
-        row = next(r for r in rep.transient if r.signal == "V(p)")
-        assert (row.near is not None and row.near > 0.1) == passes
+        assert rep.failed == ([] if passes else ["V(p)"])
 
 
 def test_jumps_of_every_kind():
@@ -272,8 +274,10 @@ def test_bad_input_exits_2(tmp_path, capsys):
     bad = tmp_path / "bad.etn"
     bad.write_text("mass m 1 kg\n")
     assert main(["crosscheck", str(bad)]) == 2
-    assert main(["crosscheck", str(COOLER), "--rtol", "-1"]) == 2
     assert main(["crosscheck", str(tmp_path / "missing.etn")]) == 2
+    with pytest.raises(SystemExit) as e:  # argparse's own errors
+        main(["crosscheck", str(COOLER), "--rtol", "-1"])
+    assert e.value.code == 2 and "must be greater than zero" in capsys.readouterr().err
 
 
 def test_keep_writes_the_files(ngspice, tmp_path, capsys):
@@ -320,4 +324,272 @@ def test_wrong_netlist_exits_1_naming_the_signal(ngspice, monkeypatch, capsys):
     assert main(["crosscheck", str(COOLER)]) == 1
     out = capsys.readouterr().out
     assert "MISMATCH in T(die)" in out
-    assert next(ln for ln in out.splitlines() if ln.lstrip().startswith("T(die)")).rstrip().endswith("FAIL")
+    rows = [ln for ln in out.splitlines() if ln.lstrip().startswith("T(die) ")]
+    assert rows[0].rstrip().endswith("pass")  # the steady state: the drive is off at t = 0
+    assert rows[1].rstrip().endswith("FAIL")  # the transient
+
+
+# ---- the simulator against closed forms (CHECKS.md 1, 2, 3) ------------------------------------
+def _simulated(text_etn: str, exe: str, tmp_path: Path) -> tuple[dict[str, Plot], dict[str, str]]:
+    d = netgen.load(text_etn)
+    text, nm = netlist(d)
+    run = simulate(text, exe, tmp_path)
+    return {p.name.split()[0]: p for p in run.plots}, nm.signals
+
+
+def _vec(plot: Plot, how: str) -> np.ndarray:
+    return (-1.0 if how.startswith("-") else 1.0) * np.real(plot[how.lstrip("-")])
+
+
+# ---- CHECKS 1: lumped mass cooling through a link to a reservoir, θ(t)/θ₀ = exp(−t/(R·C))
+# (Incropera & DeWitt, Fundamentals of Heat and Mass Transfer, lumped capacitance method, ch. 5)
+def test_checks_1_lumped_cooling_through_the_simulator(ngspice, tmp_path):
+    R, C, T_res, theta0 = 2.0, 2.0, 300.0, 30.0  # K/W, J/K: τ = 4 s
+    etn = f"""
+fixed room {T_res} K
+mass body {C} J/K start {T_res + theta0} K
+link l body room {R} K/W
+transient until 20 s step 0.05 s
+"""
+    plots, sig = _simulated(etn, ngspice, tmp_path)
+    tr = plots["Transient"]
+    t, T = np.real(tr["time"]), _vec(tr, sig["T(body)"])
+    exact = T_res + theta0 * np.exp(-t / (R * C))
+    # The simulator at the netlist's reltol 1e-9 keeps this within about 0.6 mK of 30 K.
+    assert np.abs(T - exact).max() < 1e-3
+    assert (T[-1] - T_res) / theta0 == pytest.approx(math.exp(-20 / (R * C)), abs=3e-5)
+    assert crosscheck(netgen.load(etn), ngspice).passed  # and netgen agrees with it
+
+
+# ---- CHECKS 2: series RLC driven by a voltage step, underdamped: i(t) = V/(ω_d·L)·e^(−αt)·sin(ω_d t),
+# α = R/2L, ω₀ = 1/√(LC), ω_d = √(ω₀² − α²); capacitor overshoot exp(−πζ/√(1−ζ²))
+# (Nilsson & Riedel, Electric Circuits, natural and step response of RLC circuits)
+def test_checks_2_series_rlc_step_through_the_simulator(ngspice, tmp_path):
+    V, R, L, C = 1.0, 2.0, 0.1, 0.01
+    # With `start 0 A` and `start 0 V` held, the transient begins with the source on, the coil
+    # carrying nothing and the capacitor empty: the textbook step response.
+    etn = f"""
+ground g
+source v a g {V} V
+resistor r a b {R} ohm
+inductor l b c {L} H start 0 A
+capacitor cap c g {C} F start 0 V
+transient until 0.6 s step 1 ms
+"""
+    plots, sig = _simulated(etn, ngspice, tmp_path)
+    tr = plots["Transient"]
+    t, i, vc = np.real(tr["time"]), _vec(tr, sig["I(l)"]), _vec(tr, sig["V(c)"])
+    a, w0 = R / (2 * L), 1 / math.sqrt(L * C)
+    wd, zeta = math.sqrt(w0**2 - a**2), a / w0
+    exact = V / (wd * L) * np.exp(-a * t) * np.sin(wd * t)
+    assert np.abs(i - exact).max() < 1e-4 * np.abs(exact).max()
+    assert vc.max() / V - 1 == pytest.approx(math.exp(-math.pi * zeta / math.sqrt(1 - zeta**2)), abs=1e-4)
+    assert crosscheck(netgen.load(etn), ngspice).passed
+
+
+# ---- CHECKS 3: ideal cooler, Qc = S·I·Tc − ½I²R − K·ΔT, Qh = S·I·Th + ½I²R − K·ΔT, V = I·R + S·ΔT
+# (Rowe (ed.), CRC Handbook of Thermoelectrics (1995), thermoelectric refrigeration; Goldsmid,
+# Introduction to Thermoelectricity)
+@pytest.mark.parametrize("I", [0.4, 1.2, 3.0])
+def test_checks_3_ideal_cooler_through_the_simulator(ngspice, tmp_path, I):
+    S, R, K, Tc, Th = 0.052, 1.8, 0.6, 273.15, 303.15
+    etn = f"""
+fixed cold {Tc} K
+fixed hot {Th} K
+ground gnd
+source drive p gnd {I} A
+thermoelectric tec pins p gnd sides cold hot {{ seebeck {S} V/K  resistance {R} ohm  conductance {K} W/K }}
+steady
+"""
+    plots, sig = _simulated(etn, ngspice, tmp_path)
+    op = plots["Operating"]
+    dT = Th - Tc
+    Qc = S * I * Tc - 0.5 * I * I * R - K * dT
+    Qh = S * I * Th + 0.5 * I * I * R - K * dT
+    assert _vec(op, sig["I(tec)"])[0] == pytest.approx(I, rel=1e-9)  # the source pushes it into p, through the module to gnd
+    assert _vec(op, sig["Q(cold)"])[0] == pytest.approx(Qc, rel=1e-9)  # what the cold side gives up
+    assert -_vec(op, sig["Q(hot)"])[0] == pytest.approx(Qh, rel=1e-9)  # what the hot side takes
+    assert _vec(op, sig["V(p)"])[0] == pytest.approx(I * R + S * dT, rel=1e-9)
+    assert crosscheck(netgen.load(etn), ngspice).passed
+
+
+# ---- random networks of both domains: netgen and the simulator agree (CHECKS.md 12) --------------
+def _q(x: float) -> str:
+    return f"{x:.3g}"
+
+
+def _num(draw, lo: float, hi: float) -> str:
+    """A value on a grid of 1/1000 of the range: plain numbers, as an engineer writes them.
+    (Unrestricted floats find corners at 1e-65 s, which stop netgen's transient: reported.)"""
+    return _q(lo + (hi - lo) * draw(st.integers(0, 1000)) / 1000)
+
+
+@st.composite
+def _wave(draw, unit: str, lo: float, hi: float):
+    """A constant or one of the shapes, with values in [lo, hi] of `unit`, times in seconds."""
+    v = lambda: _num(draw, lo, hi)
+    t = lambda a, b: _num(draw, a, b)
+    kind = draw(st.sampled_from(["const", "const", "step", "ramp", "sine", "pulse"]))
+    if kind == "const":
+        return f"{v()} {unit}"
+    if kind == "step":
+        return f"step({v()} {unit}, {v()} {unit}, {t(0.5, 15)} s)"
+    if kind == "ramp":
+        a = float(t(0, 10))
+        return f"ramp({v()} {unit}, {v()} {unit}, {_q(a)} s, {_q(a + float(t(0.5, 8)))} s)"
+    if kind == "sine":
+        return f"sine({_q((lo + hi) / 2)} {unit}, {t(0, (hi - lo) / 4)} {unit}, {t(0.02, 0.3)} Hz)"
+    rise = draw(st.sampled_from(["0", t(0.05, 1)]))
+    return f"pulse({v()} {unit}, {v()} {unit}, {t(0, 4)} s, {rise} s, {t(0.05, 1)} s, {t(0.5, 3)} s, {t(5, 12)} s)"
+
+
+@st.composite
+def networks(draw) -> str:
+    """A connected network of both domains: masses on a tree of links to one or two reservoirs,
+    heat inputs, a resistor tree to ground with capacitors, coils (each behind its own resistor,
+    so no loop of sources and coils), sources, resistors that heat masses, and 0-3 modules."""
+    pick = lambda xs: draw(st.sampled_from(xs))
+    num = lambda a, b: _num(draw, a, b)
+    lines = ['design "random network"']
+    reservoirs = [f"res{i}" for i in range(draw(st.integers(1, 2)))]
+    masses = [f"m{i}" for i in range(draw(st.integers(1, 4)))]
+    for r in reservoirs:
+        temp = draw(st.sampled_from(["const", "const", "wave"]))
+        lines.append(f"fixed {r} " + (f"{num(290, 310)} K" if temp == "const" else draw(_wave("K", 290, 310))))
+    for m in masses:
+        start = f" start {num(285, 330)} K" if draw(st.booleans()) else ""
+        lines.append(f"mass {m} {num(0.3, 5)} J/K{start}")
+    thermal = reservoirs + masses
+    order = reservoirs[:1] + draw(st.permutations(thermal[1:]))  # a spanning tree from a reservoir
+    links = [(order[k], order[draw(st.integers(0, k - 1))]) for k in range(1, len(order))]
+    links += [tuple(draw(st.permutations(thermal))[:2]) for _ in range(draw(st.integers(0, 2)))] if len(thermal) > 1 else []
+    for k, (a, b) in enumerate(links):
+        lines.append(f"link k{k} {a} {b} {num(0.2, 3)} W/K")
+    for k in range(draw(st.integers(0, 2))):
+        lines.append(f"heat h{k} {pick(masses)} {draw(_wave('W', 0, 3))}")
+    lines.append("ground g")
+    enodes = [f"e{i}" for i in range(draw(st.integers(1, 3)))]
+    everywhere = ["g"] + enodes
+    tree = ["g"] + draw(st.permutations(enodes))
+    for k in range(1, len(tree)):
+        heats = f" heats {pick(masses)}" if draw(st.integers(0, 3)) == 0 else ""
+        lines.append(f"resistor r{k} {tree[k]} {tree[draw(st.integers(0, k - 1))]} {num(1, 50)} ohm{heats}")
+    vnodes = draw(st.permutations(enodes))[: draw(st.integers(0, 1))]  # at most one voltage source
+    # No capacitor on the voltage source's node: a jump of the source across a capacitor is an
+    # infinite current, which netgen refuses (step size collapses) and no netlist can show.
+    capable = [n for n in everywhere if n not in vnodes]
+    for k in range(draw(st.integers(0, 2)) if len(capable) > 1 else 0):
+        a, b = draw(st.permutations(capable))[:2]
+        lines.append(f"capacitor c{k} {a} {b} {num(1, 100)} mF")
+    for k in range(draw(st.integers(0, 2))):
+        a, b = draw(st.permutations(everywhere))[:2]
+        lines.append(f"inductor l{k} {a} x{k} {num(10, 1000)} mH")
+        lines.append(f"resistor rl{k} x{k} {b} {num(1, 50)} ohm")
+    for k, a in enumerate(vnodes):
+        lines.append(f"source v{k} {a} g {draw(_wave('V', -3, 3))}")
+    for k in range(draw(st.integers(0 if vnodes else 1, 2))):
+        a, b = draw(st.permutations(everywhere))[:2]
+        lines.append(f"source i{k} {a} {b} {draw(_wave('A', -0.5, 0.5))}")
+    for k in range(draw(st.integers(0, 3))):
+        p, n = draw(st.permutations(everywhere))[:2]
+        a, b = draw(st.permutations(thermal))[:2] if len(thermal) > 1 else (thermal[0], thermal[0])
+        if a == b:
+            continue
+        lines.append(f"thermoelectric te{k} pins {p} {n} sides {a} {b} "
+                     f"{{ seebeck {num(-0.06, 0.06)} V/K resistance {num(0.5, 3)} ohm conductance {num(0.2, 1)} W/K }}")
+    lines += ["steady", "transient until 20 s step 0.1 s"]
+    return "\n".join(lines) + "\n"
+
+
+@settings(derandomize=True, max_examples=40, deadline=None, database=None,
+          suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large])
+@given(networks())
+def test_random_networks_agree(ngspice, etn):
+    rep = crosscheck(netgen.load(etn), ngspice)
+    assert rep.passed, f"{etn}\n{rep.table()}"
+
+
+# ---- what the cross-check found, kept ------------------------------------------------------------
+def test_pulse_is_high_at_the_end_of_its_rise_from_the_left():
+    """Found by the property test: netgen took a pulse's value just before the end of a finite
+    rise as `low`, so the transient's step landing there used the wrong source value and the
+    row stored at that corner was wrong (here V = 25.3 ohm · low instead of · high)."""
+    from netgen.expr import shape_value
+
+    args = (-0.174, -0.116, 0.0, 0.163, 0.05, 0.61, 5.0)
+    for t in (0.163, 5.163):  # the first period and a later one
+        assert shape_value("pulse", args, t, left=True) == pytest.approx(-0.116)
+        assert shape_value("pulse", args, t) == pytest.approx(-0.116)
+    res = netgen.load("ground g\nresistor r e g 25.3 ohm\n"
+                      f"source i e g pulse({args[0]} A, {args[1]} A, 0 s, 0.163 s, 0.05 s, 0.61 s, 5 s)\n"
+                      "transient until 1 s step 0.1 s\n").run()
+    at = np.isclose(res.time, 0.163)
+    assert at.any() and np.allclose(res.waveforms["V(e)"][at], -0.116 * 25.3)
+
+
+# Two networks from the property test whose `.op` ngspice got wrong while the netlist set every
+# node with `.nodeset`: a coil carrying 0 A with 0.2 V across it, and a root at -2893 K.
+NODESET_CASES = {
+    "coil-left-open": """
+fixed res0 291 K
+fixed res1 sine(300 K, 0.01 K, 0.099 Hz)
+mass m0 0.497 J/K
+mass m1 0.502 J/K
+mass m2 0.554 J/K start 287 K
+link k0 m0 res0 0.323 W/K
+link k1 m1 res0 1.94 W/K
+link k2 m2 m1 1.6 W/K
+link k3 res1 res0 0.528 W/K
+ground g
+resistor r1 e0 g 44.1 ohm
+resistor r2 e1 e0 5.17 ohm heats m0
+resistor r3 e2 e1 23 ohm
+inductor l0 e0 x0 329 mH
+resistor rl0 x0 e2 18.7 ohm
+source i0 g e2 0.243 A
+thermoelectric te0 pins e2 e0 sides res1 m2 { seebeck -0.0444 V/K resistance 2.88 ohm conductance 0.653 W/K }
+steady
+""",
+    "root-below-zero": """
+fixed res0 290 K
+mass m0 0.3 J/K
+mass m1 0.3 J/K
+link k0 m0 res0 0.2 W/K
+link k1 m1 res0 0.2 W/K
+link k2 res0 m0 0.2 W/K
+heat h0 m0 0.003 W
+ground g
+resistor r1 e0 g 1 ohm heats m0
+source i0 g e0 -0.5 A
+thermoelectric te0 pins g e0 sides res0 m0 { seebeck -0.0599 V/K resistance 0.5 ohm conductance 0.2 W/K }
+steady
+""",
+}
+
+
+@pytest.mark.parametrize("name", list(NODESET_CASES))
+def test_steady_states_that_nodesets_misled(ngspice, name):
+    rep = crosscheck(netgen.load(NODESET_CASES[name]), ngspice)
+    assert rep.passed, rep.table()
+    text = netlist(netgen.load(NODESET_CASES[name]))[0]
+    assert all(line.startswith(".nodeset V(t_") for line in text.splitlines() if line.startswith(".nodeset"))
+
+
+def test_simulators_first_step_is_named(ngspice):
+    """ngspice takes its first step under `uic` (TSTEP/100 = 1 ms) without error control, so a
+    coil with L/R = 0.1 ms starting at 0 A is off there: a real disagreement, reported, and the
+    table's notes say where it comes from."""
+    rep = crosscheck(netgen.load("ground g\nsource v a g 5 V\nresistor r a b 10 ohm\n"
+                                 "inductor l b g 1 mH start 0 A\ntransient until 10 s step 0.1 s\n"), ngspice)
+    assert "I(l)" in rep.failed
+    row = next(r for r in rep.transient if r.signal == "I(l)")
+    assert row.at < 5e-3
+    assert any("first steps" in n and "without error control" in n for n in rep.notes)
+
+
+@pytest.mark.xfail(reason="netgen's transient: a corner at 1e-65 s collapses the step size when a "
+                          "resistor heats a mass (found by the property test; reported)")
+def test_corner_at_a_tiny_time():
+    netgen.load("fixed f 290 K\nmass m 1 J/K\nlink k m f 1 W/K\nground g\n"
+                "resistor r e g 1 ohm heats m\nsource i g e step(0 A, 0 A, 1e-65 s)\n"
+                "transient until 20 s step 0.1 s\n").run()

@@ -94,7 +94,7 @@ class DCProblem:
     constraint with a multiplier of its own, bordering the system.
     """
 
-    def __init__(self, sys: System, t: float = 0.0, impose: bool = False, gmin: float = 0.0):
+    def __init__(self, sys: System, t: float = 0.0, impose: bool = False, gmin: float = 0.0, pin: bool = True):
         self.sys, self.t = sys, t
         self.state = sys.switch_state(t)
         n = sys.n
@@ -102,17 +102,17 @@ class DCProblem:
         border: list[tuple[int, int, float]] = []
         if impose:
             for a, b, v in sys.start_nodes:
-                if b >= n and a < n and a not in pins:
+                if pin and b >= n and a < n and a not in pins:
                     pins[a] = v
-                elif a >= n and b < n and b not in pins:
+                elif pin and a >= n and b < n and b not in pins:
                     pins[b] = -v
                 else:
                     border.append((a, b, v))
             for k, v in sys.start_branches:
-                if k in pins:
-                    border.append((k, n, v))
-                else:
+                if pin and k not in pins:
                     pins[k] = v
+                else:
+                    border.append((k, n, v))
         self.pinned = np.array(sorted(pins), dtype=np.int64)
         self.pin_values = np.array([pins[i] for i in self.pinned.tolist()], dtype=float)
         mask = np.ones(n, dtype=bool)
@@ -188,17 +188,21 @@ def check_physical(sys: System, x: np.ndarray, when: str) -> None:
             "module currents, and the links to a reservoir")
 
 
-def solve_dc(sys: System, t: float = 0.0, impose: bool = False) -> np.ndarray:
-    """The steady state at time t (with `impose`, every start value held). Raises SolveError."""
-    x = _solve_dc(sys, t, impose)
+def solve_dc(sys: System, t: float = 0.0, impose: bool = False, pin: bool = True) -> np.ndarray:
+    """The steady state at time t (with `impose`, every start value held). Raises SolveError.
+
+    `pin=False` imposes every start value as a bordering constraint instead of pinning
+    unknowns: the general form, slower on large meshes, kept to check the pinned one against.
+    """
+    x = _solve_dc(sys, t, impose, pin)
     check_physical(sys, x, "the start of the transient" if impose else "the steady state")
     return x
 
 
-def _solve_dc(sys: System, t: float, impose: bool) -> np.ndarray:
+def _solve_dc(sys: System, t: float, impose: bool, pin: bool) -> np.ndarray:
     if sys.n == 0:
         return np.zeros(0)
-    prob = DCProblem(sys, t, impose)
+    prob = DCProblem(sys, t, impose, pin=pin)
     x_guess = _guess(sys, t)
     z0 = prob.start(x_guess)
     nf = len(prob.free)
@@ -224,7 +228,7 @@ def _solve_dc(sys: System, t: float, impose: bool) -> np.ndarray:
     z = z0.copy()
     p = prob
     for gmin in [1e-2, 1e-3, 1e-4, 1e-6, 1e-8, 1e-10, 0.0]:
-        p = DCProblem(sys, t, impose, gmin)
+        p = DCProblem(sys, t, impose, gmin, pin)
         z, ok, worst = newton(p.residual, p.jacobian, z, w, constant_jacobian=linear)
         if not ok:
             break

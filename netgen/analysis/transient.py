@@ -31,8 +31,10 @@ K_ERR = (-3.0 * GAMMA**2 + 4.0 * GAMMA - 2.0) / (12.0 * (2.0 - GAMMA))
 # Absolute error floors per kind of unknown (ARCHITECTURE.md, default accuracy).
 ATOL = {"T": 1e-3, "V": 1e-6, "I": 1e-6, "Q": 1e-6}
 RTOL = 1e-4
-KEEP_FACTORS = 4  # factorisations kept for reuse (each is tens of MB on a large plate)
+KEEP_FACTORS = 4  # factorisations kept for reuse, the most recent ones ...
+KEEP_NONZEROS = 6_000_000  # ... while together they hold no more entries than this (~70 MB)
 SLOW = 0.5  # Newton contracting slower than this per iteration asks for a fresh Jacobian
+NEWTON_TOL = 1e-3  # Newton's error, in units of the step's error weights
 
 
 class Columns:
@@ -109,6 +111,7 @@ class _Factors:
         self.solves = 0
         self.last_key = None
         self.last_lu = None
+        self.rate = None  # Newton's last contraction rate with `last_lu`
 
     def get(self, h, state, x=None, fresh=False):
         key = (h, state)
@@ -125,9 +128,13 @@ class _Factors:
             except (RuntimeError, sp.linalg.MatrixRankWarning):
                 lu = None
         self.count += 1
+        self.rate = None
         if self.sys.linear:
             self.cache[key] = lu
-            while len(self.cache) > KEEP_FACTORS:
+            # A factorisation of a 300 × 300 plate is ~60 MB: on large networks keep only the
+            # latest, since an earlier step size rarely comes back.
+            while len(self.cache) > 1 and (len(self.cache) > KEEP_FACTORS or sum(
+                    f.nnz for f in self.cache.values() if f is not None) > KEEP_NONZEROS):
                 self.cache.popitem(last=False)
         self.last_key, self.last_lu = key, lu
         return lu
@@ -151,6 +158,7 @@ def _stage(sys, fac, h, state, rhs, t, x_guess, left, weights, stats):
     lu = fac.get(h, state, y)
     fresh = False
     prev = None
+    rate = fac.rate  # how fast Newton contracted last time with this factorisation
     for it in range(16):
         if lu is None:
             return y, False
@@ -161,7 +169,13 @@ def _stage(sys, fac, h, state, rhs, t, x_guess, left, weights, stats):
             return y, False
         y = y + dy
         size = float(np.max(np.abs(dy) / weights)) if len(dy) else 0.0
-        if size < 1e-3:
+        if prev is not None:
+            rate = size / prev if prev > 0 else 0.0
+            fac.rate = rate
+        # Converged when this update is small, or when the contraction rate says that what is
+        # left after it, rate/(1 − rate)·|update|, is (Hairer & Wanner, Solving ODEs II, IV.8):
+        # a weakly nonlinear network is then done after a single iteration.
+        if size < NEWTON_TOL or (rate is not None and rate < 0.5 and rate / (1 - rate) * size < NEWTON_TOL):
             return y, True
         # Modified Newton contracts linearly; when it does so slowly (or not at all), a fresh
         # Jacobian at the current iterate restores Newton's pace. Once per stage is enough.
@@ -169,7 +183,7 @@ def _stage(sys, fac, h, state, rhs, t, x_guess, left, weights, stats):
         if (slow or it >= 2) and not fresh:
             lu = fac.get(h, state, y, fresh=True)
             fresh = True
-            prev = None
+            prev, rate = None, None
             continue
         prev = size
     return y, False
@@ -254,8 +268,9 @@ def integrate(sys: System, x0: np.ndarray, t_end: float, max_step: float | None 
         if np.any(x_new[is_temp] <= 0):
             return _partial(times, xs, xds, keep_d, steps, rejected, fac, t,
                             "a temperature would fall to absolute zero", sys, x,
-                            np.where(is_temp & (x_new <= 0), 1.0, 0.0), "first at", "more heat is taken out there than "
-                            "can flow in: check the signs of heat inputs and module currents, and the links to a reservoir")
+                            np.where(is_temp & (x_new <= 0), 1.0, 0.0), "first at",
+                            "more heat is taken out there than can flow in: check the signs of heat inputs and "
+                            "module currents, and the links to a reservoir")
         # Accept.
         steps += 1
         xdot = (x_new - A2 * y1 + B2 * x) / (D * h)

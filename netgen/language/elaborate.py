@@ -18,7 +18,7 @@ from ..design import (
 from ..errors import NetgenError, NetgenErrors
 from ..expr import Const, Wave, evaluate
 from . import plate
-from .grammar import parser
+from .grammar import parser, paused_gc
 from .quantities import ExprReader, SIGNAL_KINDS, Typed, read_quantity
 
 MAX_ERRORS = 20
@@ -59,8 +59,9 @@ def load_text(text: str, filename: str = "<text>", overrides: dict[str, str] | N
     """Read .etn text into a checked Design."""
     from ..topology import check_design  # the structural checks run on the finished model
 
-    design = Elaborator(text, filename, overrides or {}).run()
-    check_design(design)
+    with paused_gc():  # reading builds a large graph of objects and no garbage cycles
+        design = Elaborator(text, filename, overrides or {}).run()
+        check_design(design)
     return design
 
 

@@ -5,13 +5,15 @@ all statements of a few fixed shapes: a keyword, names, one value that is a numb
 unit or a parameter name, perhaps `start VALUE`. Such a line, standing alone at the top level,
 is matched here by a regular expression built from the grammar's own NAME and QUANTITY
 terminals and turned into the Tree lark would give (same rule names, tokens, positions). Every
-other line, and everything inside `{ ... }`, goes to lark in runs, padded so that its line
-and positions are moved to those in the file; so syntax errors read exactly as before. tests/test_lines.py
-checks the trees against lark's on a corpus of lines.
+other line, and everything inside `{ ... }`, goes to lark in runs of lines, whose line numbers
+and positions are then moved to those in the file; so syntax errors read exactly as before.
+tests/test_fastpaths.py checks the trees against lark's on a corpus of lines and the examples.
 """
 from __future__ import annotations
 
 import re
+from array import array
+from collections.abc import Sequence
 
 from lark import Token, Tree
 from lark.exceptions import UnexpectedInput
@@ -32,18 +34,13 @@ _BRACES = re.compile(r'"[^"\n]*"|#.*|[{}]')
 _BLANK = re.compile(r"[ \t]*(?:#[^\n]*)?\r?")
 
 
-def _plain(pattern: str) -> str:
-    """A terminal's regexp with its capturing groups made non-capturing."""
-    return re.sub(r"(?<!\\)\((?!\?)", "(?:", pattern)
-
-
 class LineReader:
     """Parses `start` text line by line, with `lark` (a Lark LALR parser) for what is not plain."""
 
     def __init__(self, lark):
         self.lark = lark
-        name = _plain(lark.get_terminal("NAME").pattern.to_regexp())
-        qty = _plain(lark.get_terminal("QUANTITY").pattern.to_regexp())
+        name = lark.get_terminal("NAME").pattern.to_regexp()
+        qty = lark.get_terminal("QUANTITY").pattern.to_regexp()
         self.name_re, self.qty_re = re.compile(name), re.compile(qty)
         value = rf"(?P<v>(?P<vq>{qty})|{name})"
         start_value = rf"(?P<s>(?P<sq>{qty})|{name})"
@@ -59,8 +56,8 @@ class LineReader:
         self.first_word = re.compile(r"[ \t]*([a-z]+)")
 
     # ---- one line ---------------------------------------------------------------------
-    def line_tree(self, line: str, lineno: int, offset: int) -> Tree | None:
-        """The statement tree of one plain line, or None when lark must read it."""
+    def match(self, line: str):
+        """The match of a plain line, or None when lark must read it."""
         w = self.first_word.match(line)
         if w is None:
             return None
@@ -70,6 +67,20 @@ class LineReader:
         m = rx.match(line)
         if m is None:
             return None
+        # Lark's lexer takes the first QUANTITY match at each place; the line's split must agree.
+        for group, q in (("v", "vq"), ("s", "sq")):
+            if group in rx.groupindex and m.group(q) is not None:
+                if self.qty_re.match(line, m.start(group)).end() != m.end(group):
+                    return None
+        return m
+
+    def line_tree(self, line: str, lineno: int, offset: int) -> Tree | None:
+        """The statement tree of one plain line, or None when lark must read it."""
+        m = self.match(line)
+        return None if m is None else self.tree(m, lineno, offset)
+
+    @staticmethod
+    def tree(m, lineno: int, offset: int) -> Tree:
         kw = m.group("kw")
         k, has_value, has_attrs, _ = SHAPES[kw]
 
@@ -80,38 +91,32 @@ class LineReader:
         def atom(group, quantity_group):
             a, b = m.span(group)
             if m.group(quantity_group) is not None:
-                # Lark's lexer takes the first QUANTITY match here; the line's split must agree.
-                if self.qty_re.match(line, a).end() != b:
-                    return None
                 return Tree("number", [token("QUANTITY", group)], _meta(lineno, a, b, offset))
             return Tree("name", [token("NAME", group)], _meta(lineno, a, b, offset))
 
         children: list = [token("NAME", f"n{i}") for i in range(k)]
         end = m.end(f"n{k - 1}")
         if has_value:
-            v = atom("v", "vq")
-            if v is None:
-                return None
-            children.append(v)
+            children.append(atom("v", "vq"))
             end = m.end("v")
         if has_attrs:
             if "sk" in m.re.groupindex and m.group("sk") is not None:
-                s = atom("s", "sq")
-                if s is None:
-                    return None
-                a = m.start("sk")
-                b = m.end("s")
-                attr = Tree("attr_start", [s], _meta(lineno, a, b, offset))
+                a, b = m.start("sk"), m.end("s")
+                attr = Tree("attr_start", [atom("s", "sq")], _meta(lineno, a, b, offset))
                 children.append(Tree("attrs", [attr], _meta(lineno, a, b, offset)))
                 end = b
             else:
-                children.append(Tree("attrs", [], Meta()))
+                children.append(Tree("attrs", [], _NO_POS))
         return Tree(kw, children, _meta(lineno, m.start("kw"), end, offset))
 
     # ---- a whole text -------------------------------------------------------------------
     def parse(self, text: str) -> Tree:
-        children: list = []
+        """The `start` tree of a text. Its children are a `Statements` sequence: the plain
+        lines among them become trees only as they are read, so a mesh of a quarter of a
+        million lines never has all its trees in memory at once."""
+        items: list = []  # a lark tree, or the index of a plain line
         lines = text.split("\n")
+        offsets = array("q")
         depth = 0
         offset = 0
         run_start = None  # (line index, offset) of the lines waiting for lark
@@ -128,15 +133,16 @@ class LineReader:
                     raise
                 for stmt in tree.children:
                     _shift(stmt, i0, o0)
-                    children.append(stmt)
+                    items.append(stmt)
 
+        match = self.match
         for i, line in enumerate(lines):
+            offsets.append(offset)
             nxt = offset + len(line) + 1
             if depth == 0:
-                tree = self.line_tree(line, i + 1, offset)
-                if tree is not None:
+                if match(line) is not None:
                     flush(offset)
-                    children.append(tree)
+                    items.append(i)
                     offset = nxt
                     continue
                 if _BLANK.fullmatch(line):
@@ -152,8 +158,33 @@ class LineReader:
                     depth = max(0, depth - 1)
             offset = nxt
         flush(len(text))
-        meta = Meta()
-        return Tree("start", children, meta)
+        return Tree("start", Statements(self, lines, offsets, items), Meta())
+
+
+class Statements(Sequence):
+    """The statements of a text in order. A plain line's tree is built each time it is read
+    and not kept; lark's trees (for everything else) are kept as they are."""
+
+    def __init__(self, reader: LineReader, lines: list[str], offsets, items: list):
+        self.reader, self.lines, self.offsets, self.items = reader, lines, offsets, items
+
+    def _tree(self, item):
+        if not isinstance(item, int):
+            return item
+        line = self.lines[item]
+        return self.reader.tree(self.reader.match(line), item + 1, self.offsets[item])
+
+    def __len__(self) -> int:
+        return len(self.items)
+
+    def __getitem__(self, i):
+        if isinstance(i, slice):
+            return [self._tree(x) for x in self.items[i]]
+        return self._tree(self.items[i])
+
+    def __iter__(self):
+        for item in self.items:
+            yield self._tree(item)
 
 
 def _shift(item, lines: int, chars: int) -> None:
@@ -186,10 +217,20 @@ def _shift_error(e: UnexpectedInput, lines: int, chars: int) -> None:
         _shift(tok, lines, chars)
 
 
-def _meta(lineno: int, a: int, b: int, offset: int) -> Meta:
-    m = Meta()
-    m.empty = False
-    m.line = m.end_line = lineno
-    m.column, m.end_column = a + 1, b + 1
-    m.start_pos, m.end_pos = offset + a, offset + b
-    return m
+class _Pos:
+    """The part of lark's Meta that a one-line tree needs, in slots: lark's Meta keeps a dict
+    per tree, which for a 270,000-line mesh was most of the memory taken by reading it."""
+
+    __slots__ = ("empty", "line", "column", "end_line", "end_column", "start_pos", "end_pos")
+
+    def __init__(self, empty, line=None, column=None, end_line=None, end_column=None, start_pos=None,
+                 end_pos=None):
+        self.empty, self.line, self.column, self.end_line = empty, line, column, end_line
+        self.end_column, self.start_pos, self.end_pos = end_column, start_pos, end_pos
+
+
+_NO_POS = _Pos(True)  # shared by every empty `attrs`; nothing writes to a tree's positions
+
+
+def _meta(lineno: int, a: int, b: int, offset: int) -> _Pos:
+    return _Pos(False, lineno, a + 1, lineno, b + 1, offset + a, offset + b)

@@ -73,6 +73,10 @@ def _attrs(el, tree) -> dict:
 
 
 def _count(el, tree, what: str) -> int:
+    dim = el.typed(tree).dim
+    if not dim.dimensionless:
+        raise el.err(tree, f"{what} is a plain number, not in {U.unit_name(dim)}",
+                     "e.g. `plate spreader 20 by 30 ...`")
     v = el.const(tree, U.NONE, what, positive=True)
     if v != int(v):
         raise el.err(tree, f"{what} must be a whole number, not {v:g}")
@@ -218,7 +222,8 @@ def finish(el) -> None:
                     n.loc, cells))
                 break
             close = difflib.get_close_matches(rest, list(EDGES) + ["r1c1", f"r{p.rows}c{p.cols}"], n=1)
+            edges = ", ".join(f"{head}.{e}" for e in EDGES)
             el.errors.append(NetgenError(
                 f"plate `{p.name}` has no cell or edge `{rest}`", n.loc,
-                (f"did you mean `{head}.{close[0]}`? " if close else "") + cells + "; its edges are " + ", ".join(f"{head}.{e}" for e in EDGES)))
+                (f"did you mean `{head}.{close[0]}`? " if close else "") + f"{cells}; its edges are {edges}"))
             break

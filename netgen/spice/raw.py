@@ -102,6 +102,10 @@ def _plot(data: bytes, pos: int) -> tuple[Plot, int]:
         arr, pos = _binary(data, pos, nvar, npts, cplx)
     else:
         arr, pos = _ascii(data, pos, nvar, npts, cplx)
+    if cplx:  # ngspice leaves the imaginary half of its real scale (frequency) uninitialised
+        for j, k in enumerate(kinds):
+            if k in ("frequency", "time"):
+                arr[:, j] = arr[:, j].real
     return Plot(header.get("Plotname", ""), flags, names, kinds, arr), pos
 
 

@@ -63,7 +63,7 @@ def render(rep: Report) -> str:
             body.append([r.signal, r.source, quantity(r.dev, u), _rel(r),
                          "-" if r.at is None else f"{r.at:.6g} s", quantity(r.tol, u),
                          "-" if r.near is None else quantity(r.near, u), r.status])
-        out += _grid(["signal", "simulator", "worst |dev|", "rel", "at", "tolerance", "near jumps", "result"], body)
+        out += _grid(["signal", "simulator", "worst |dev|", "rel", "at", "tolerance", "excused", "result"], body)
     if rep.notes:
         out += ["", "notes:"]
         for n in rep.notes:
