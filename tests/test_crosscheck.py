@@ -223,6 +223,31 @@ def test_compare_widens_only_around_jumps(cooler_self):
         assert rep.failed == ([] if passes else ["V(p)"])
 
 
+def test_interpolation_is_pchip_piece_by_piece():
+    """The simulator's points on our grid: scipy's PchipInterpolator on each piece between
+    corners, computed for all pieces at once; a corner the simulator stepped over is named."""
+    from scipy.interpolate import PchipInterpolator
+
+    from netgen.spice.grid import Onto
+
+    rng = np.random.default_rng(2)
+    for trial in range(200):
+        ts = np.unique(np.concatenate([[0.0, 10.0], rng.uniform(0, 10, rng.integers(2, 14))]))
+        ys = rng.normal(size=len(ts)) if trial % 2 else np.cumsum(rng.uniform(0, 1, len(ts)))
+        t = np.sort(rng.uniform(0, 10, 60))
+        c = float(ts[len(ts) // 2])
+        got = Onto(ts, t, [c], [c])(ys)
+        pchip = lambda xs, v, q: PchipInterpolator(xs, v)(q) if len(xs) > 2 else np.interp(q, xs, v)
+        left, right = ts <= c, ts >= c
+        want = np.where(t <= c, pchip(ts[left], ys[left], t), pchip(ts[right], ys[right], t))
+        assert got == pytest.approx(want, abs=1e-12)
+    # A ramp's kink at 3 s where the simulator has points at 2.5 s and 3.5 s only.
+    ts = np.array([0.0, 1, 2, 2.5, 3.5, 4, 5, 6])
+    onto = Onto(ts, np.array([2.8, 3.2, 4.5]), [3.0], [3.0])
+    assert onto.missed == [3.0] and onto.unsure.tolist() == [True, True, False]
+    assert onto.movement(np.maximum(ts - 3, 0)).tolist() == [1.0, 1.0, 0.0]
+
+
 def test_jumps_of_every_kind():
     d = netgen.load("""
 fixed f table(0 s, 300 K, 2 s, 300 K, 2 s, 301 K, 4 s, 303 K)
@@ -501,7 +526,7 @@ def networks(draw) -> str:
     return "\n".join(lines) + "\n"
 
 
-@settings(derandomize=True, max_examples=40, deadline=None, database=None,
+@settings(derandomize=True, max_examples=100, deadline=None, database=None,
           suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large])
 @given(networks())
 def test_random_networks_agree(ngspice, etn):
@@ -587,9 +612,43 @@ def test_simulators_first_step_is_named(ngspice):
     assert any("first steps" in n and "without error control" in n for n in rep.notes)
 
 
-@pytest.mark.xfail(reason="netgen's transient: a corner at 1e-65 s collapses the step size when a "
-                          "resistor heats a mass (found by the property test; reported)")
 def test_corner_at_a_tiny_time():
+    """Found by the property test: a corner at 1e-65 s once collapsed the step size; corners that
+    close to the start are now taken as at the start."""
     netgen.load("fixed f 290 K\nmass m 1 J/K\nlink k m f 1 W/K\nground g\n"
                 "resistor r e g 1 ohm heats m\nsource i g e step(0 A, 0 A, 1e-65 s)\n"
                 "transient until 20 s step 0.1 s\n").run()
+
+
+# Found by the property test: across the fall of i1's pulse (4.935 s to 5.043 s) netgen stores,
+# at 5.035 s, Q(res0) = -3.219 W where the heat its links and the module take out of res0 add up
+# to -3.120 W; the simulator agrees with the balance. netgen's Newton iteration there accepts a
+# stage after one update, judging convergence by the contraction rate left from the previous
+# stage (netgen/analysis/transient.py, `_stage`); starting each stage without it fixes this.
+NEWTON_RATE_CASE = """
+fixed res0 291 K
+fixed res1 292 K
+mass m0 0.77 J/K
+link k0 res1 res0 1.08 W/K
+link k1 m0 res0 2.46 W/K
+heat h0 m0 sine(1.5 W, 0.0457 W, 0.0634 Hz)
+ground g
+resistor r1 e0 g 16.1 ohm
+resistor r2 e1 e0 46.8 ohm
+source i0 e1 g step(0 A, -0.246 A, 1.54 s)
+source i1 e0 g pulse(0.368 A, -0.449 A, 4 s, 0 s, 0.108 s, 0.935 s, 10.3 s)
+thermoelectric te0 pins e0 g sides res1 res0 { seebeck 0.00552 V/K resistance 1.05 ohm conductance 0.402 W/K }
+steady
+transient until 20 s step 0.1 s
+"""
+
+
+@pytest.mark.xfail(reason="netgen's transient accepts a Newton stage on a stale contraction rate (reported)")
+def test_reservoir_heat_balances_at_every_stored_point():
+    d = netgen.load(NEWTON_RATE_CASE)
+    res = for_comparison(d).run()
+    S, R, K = 0.00552, 1.05, 0.402
+    I, Tm = res.waveforms["I(te0)"], res.waveforms["T(m0)"]
+    given_to_res0 = S * 291 * I + 0.5 * I * I * R + K * (292 - 291)  # Q_B of the module, B = res0
+    balance = 1.08 * (291 - 292) + 2.46 * (291 - Tm) - given_to_res0  # LANGUAGE.md, Q(node) of a fixed node
+    assert np.abs(res.waveforms["Q(res0)"] - balance).max() < 1e-6

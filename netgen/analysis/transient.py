@@ -189,6 +189,18 @@ def _stage(sys, fac, h, state, rhs, t, x_guess, left, weights, stats):
     return y, False
 
 
+def _usable_corners(corners: list[float], t_end: float) -> list[float]:
+    """Corners a step can land on: ones closer than 1e-12 of the run to the start, to the end or
+    to each other are merged (a jump at 1e-65 s is a jump at the start)."""
+    tiny = t_end * 1e-12
+    out: list[float] = []
+    for c in sorted(corners):
+        if c <= tiny or c >= t_end - tiny or (out and c - out[-1] <= tiny):
+            continue
+        out.append(c)
+    return out + [t_end]
+
+
 def integrate(sys: System, x0: np.ndarray, t_end: float, max_step: float | None = None,
               tolerance: float | None = None, progress=None) -> Waveforms:
     """Integrate C·x' + F(x, t) = 0 from x0 at t = 0 to t_end."""
@@ -197,7 +209,7 @@ def integrate(sys: System, x0: np.ndarray, t_end: float, max_step: float | None 
     scale = rtol / RTOL
     atol = np.array([ATOL[k] * scale for k in sys.kinds])
     hmax = max_step if max_step else t_end / 200.0
-    corners = sys.corners(t_end) + [t_end]
+    corners = _usable_corners(sys.corners(t_end), t_end)
     alg = sys.algebraic_rows
     # The relative part of the error weight applies to temperatures' change from the start,
     # not to their absolute value: 1e-4 of 300 K would allow 30 mK per step.

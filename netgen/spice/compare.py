@@ -245,7 +245,8 @@ def _transient(d, sys, nm, ours: Results, plot: Plot, tol: Tolerances, rep: Repo
     rep.span, rep.points = (float(ts[0]), float(ts[-1])), (int(inside.sum()), len(ts))
     times = [j.time for j in rep.jumps]
     close_to = near(t, times, rep.window)
-    onto = Onto(ts, t, cuts(sys.corners(d.transient.until), times, rep.window, d.transient.until))
+    corners = sys.corners(d.transient.until)
+    onto = Onto(ts, t, cuts(corners, times, rep.window, d.transient.until), corners)
     rep.missed = [c for c in onto.missed if not any(abs(c - tj) <= rep.window for tj in times)]
     excused = (close_to | onto.unsure) & inside
     g_max = _conductance(d)

@@ -21,14 +21,14 @@ class Onto:
     of our times fall there is `unsure`, the corners are `missed`, and `movement` says how much
     a signal moves over the simulator's points around them."""
 
-    def __init__(self, ts: np.ndarray, t: np.ndarray, cuts: list[float]):
+    def __init__(self, ts: np.ndarray, t: np.ndarray, cuts: list[float], corners: list[float]):
         self.ts, self.tq = ts, np.clip(t, ts[0], ts[-1])
         n = len(ts)
         cs = np.asarray(cuts, dtype=float)
         # Piece i runs from cut i-1 to cut i; a simulator point on a cut ends one piece and
         # starts the next, so it is listed in both. "On" allows for rounding: ngspice puts a
         # PULSE corner at 15.343000000000002 s where the shape's own arithmetic says 15.343.
-        on = 1e-9 * (ts[-1] - ts[0])
+        on = 1e-12 * (ts[-1] - ts[0])  # ngspice steps 1e-8 past a corner: far more than this
         lo = np.concatenate([[0], np.searchsorted(ts, cs - on, "left")])
         hi = np.concatenate([np.searchsorted(ts, cs + on, "right") - 1, [n - 1]])
         size = np.maximum(hi - lo + 1, 0)
@@ -47,11 +47,12 @@ class Onto:
         self.k, self.k1 = k, np.clip(k + 1, 0, n - 1)  # ts[k] <= t <= ts[k + 1]
         self.unsure = np.zeros(len(t), dtype=bool)
         self.missed: list[float] = []
-        if len(cs) and n >= 2:
-            j = np.clip(np.searchsorted(cs, ts[k], side="right"), 0, len(cs) - 1)
+        cc = np.asarray(sorted(corners), dtype=float)  # the cuts that are corners of a source
+        if len(cc) and n >= 2:
+            j = np.clip(np.searchsorted(cc, ts[k], side="right"), 0, len(cc) - 1)
             gap = 1e-6 * (ts[self.k1] - ts[k])  # a point that close is on the corner
-            self.unsure = (cs[j] > ts[k] + gap) & (cs[j] < ts[self.k1] - gap)
-            self.missed = sorted(set(cs[j][self.unsure].tolist()))
+            self.unsure = (cc[j] > ts[k] + gap) & (cc[j] < ts[self.k1] - gap)
+            self.missed = sorted(set(cc[j][self.unsure].tolist()))
 
     def __call__(self, ys: np.ndarray) -> np.ndarray:
         line = np.interp(self.tq, self.ts, ys)
@@ -63,13 +64,12 @@ class Onto:
         h = x[p1] - x[p]
         safe = np.where(h > 0, h, 1.0)
         s = (self.tq - x[p]) / safe
-        # Cubic Hermite on [x_p, x_p+1]; beyond a piece's ends (a corner the simulator stepped
-        # over) s leaves [0, 1] and the cubic is replaced by the end point's tangent.
+        # Cubic Hermite on [x_p, x_p+1]. Between a cut and a piece's first or last point (s
+        # outside [0, 1]) the straight line between the simulator's neighbouring points is
+        # read: an end slope continued there is wild when the point sits on an edge.
         h00, h10, h01, h11 = 2 * s**3 - 3 * s**2 + 1, s**3 - 2 * s**2 + s, -2 * s**3 + 3 * s**2, s**3 - s**2
         cubic = h00 * y[p] + h10 * h * d[p] + h01 * y[p1] + h11 * h * d[p1]
-        tangent = np.where(s < 0, y[p] + d[p] * (self.tq - x[p]), y[p1] + d[p1] * (self.tq - x[p1]))
-        out = np.where((s >= 0) & (s <= 1), cubic, tangent)
-        return np.where(self.ok & (h > 0), out, line)
+        return np.where(self.ok & (h > 0) & (s >= 0) & (s <= 1), cubic, line)
 
     def movement(self, ys: np.ndarray) -> np.ndarray:
         """Per time of ours that is `unsure`: the range of the simulator's values over the two
@@ -99,20 +99,18 @@ def _slopes(x: np.ndarray, y: np.ndarray, piece: np.ndarray) -> np.ndarray:
         with np.errstate(divide="ignore", invalid="ignore"):
             hm = (w1 + w2) / (w1 / m0 + w2 / m1)
         d[i] = np.where(agree, hm, 0.0)
-    for end, nxt, sgn in ((True, 1, 1), (False, -1, -1)):  # a piece's first, then last point
-        if end:
-            e = np.flatnonzero(np.concatenate([[True], ~same]) & np.concatenate([same, [False]]))
-            ha, hb, ma, mb = h[e], _at(h, e + 1), m[e], _at(m, e + 1)
-            two = ~np.concatenate([same, [False], [False]])[e + 1] if n > 1 else np.ones(len(e), bool)
-        else:
-            e = np.flatnonzero(np.concatenate([~same, [True]]) & np.concatenate([[False], same]))
-            ha, hb, ma, mb = h[e - 1], _at(h, e - 2), m[e - 1], _at(m, e - 2)
-            two = ~np.concatenate([[False], [False], same])[e] if n > 1 else np.ones(len(e), bool)
+    # A piece's ends: its first points (with the next interval) and its last (with the one before).
+    starts = np.flatnonzero(np.concatenate([[True], ~same]) & np.concatenate([same, [False]]))
+    ends = np.flatnonzero(np.concatenate([~same, [True]]) & np.concatenate([[False], same]))
+    padded = np.concatenate([[False], [False], same, [False], [False]])  # same[j] is padded[j + 2]
+    for e, ha, hb, ma, mb, two in (
+            (starts, h[starts], _at(h, starts + 1), m[starts], _at(m, starts + 1), ~padded[starts + 3]),
+            (ends, h[ends - 1], _at(h, ends - 2), m[ends - 1], _at(m, ends - 2), ~padded[ends])):
         with np.errstate(divide="ignore", invalid="ignore"):
             dd = ((2 * ha + hb) * ma - ha * mb) / (ha + hb)
         dd = np.where(np.sign(dd) != np.sign(ma), 0.0, dd)
         dd = np.where((np.sign(ma) != np.sign(mb)) & (np.abs(dd) > 3 * np.abs(ma)), 3 * ma, dd)
-        d[e] = np.where(two, ma, dd)
+        d[e] = np.where(two, ma, dd)  # a piece of two points: its one secant
     return d
 
 
