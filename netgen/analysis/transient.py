@@ -111,7 +111,6 @@ class _Factors:
         self.solves = 0
         self.last_key = None
         self.last_lu = None
-        self.rate = None  # Newton's last contraction rate with `last_lu`
 
     def get(self, h, state, x=None, fresh=False):
         key = (h, state)
@@ -128,7 +127,6 @@ class _Factors:
             except (RuntimeError, sp.linalg.MatrixRankWarning):
                 lu = None
         self.count += 1
-        self.rate = None
         if self.sys.linear:
             self.cache[key] = lu
             # A factorisation of a 300 × 300 plate is ~60 MB: on large networks keep only the
@@ -158,7 +156,9 @@ def _stage(sys, fac, h, state, rhs, t, x_guess, left, weights, stats):
     lu = fac.get(h, state, y)
     fresh = False
     prev = None
-    rate = fac.rate  # how fast Newton contracted last time with this factorisation
+    # The contraction rate is measured afresh in every stage: one carried over from an earlier
+    # stage once let a stage stop after a single update with a 0.1 W heat imbalance left.
+    rate = None
     for it in range(16):
         if lu is None:
             return y, False
@@ -171,7 +171,6 @@ def _stage(sys, fac, h, state, rhs, t, x_guess, left, weights, stats):
         size = float(np.max(np.abs(dy) / weights)) if len(dy) else 0.0
         if prev is not None:
             rate = size / prev if prev > 0 else 0.0
-            fac.rate = rate
         # Converged when this update is small, or when the contraction rate says that what is
         # left after it, rate/(1 − rate)·|update|, is (Hairer & Wanner, Solving ODEs II, IV.8):
         # a weakly nonlinear network is then done after a single iteration.
