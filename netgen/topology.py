@@ -1,6 +1,8 @@
 """The networkx graph of both domains and the structural checks that name nodes and elements."""
 from __future__ import annotations
 
+from collections import Counter
+
 import networkx as nx
 
 from .design import (
@@ -12,29 +14,31 @@ from .errors import NetgenError, NetgenErrors
 THERMAL_REF = "<absolute zero>"
 
 
-def graph(d: Design) -> nx.MultiGraph:
-    """Nodes of both domains; an edge per two-terminal branch, labelled with its element.
+def _branches(d: Design):
+    """(node, node, element, kind) for every branch: two-terminal elements, module pins and
+    sides, and reservoirs, heat inputs and masses to the thermal reference."""
+    for e in d.elements:
+        if isinstance(e, TwoTerminal):
+            yield e.a, e.b, e.name, type(e).__name__
+        elif isinstance(e, Thermoelectric):
+            yield e.p, e.n, e.name, "pins"
+            yield e.a, e.b, e.name, "sides"
+        elif isinstance(e, (Fixed, Heat)):
+            yield e.node, THERMAL_REF, e.name, type(e).__name__
+    for n in d.nodes.values():
+        if n.capacity is not None:
+            yield n.name, THERMAL_REF, n.name, "mass"
 
-    Reservoirs and masses join their node to the thermal reference; ground nodes are merged
-    into one electrical reference by an edge of kind "ground".
-    """
+
+def graph(d: Design) -> nx.MultiGraph:
+    """Nodes of both domains and the thermal reference; an edge per branch, labelled with its
+    element and kind."""
     g = nx.MultiGraph()
     for n in d.nodes.values():
         g.add_node(n.name, domain=n.domain)
     g.add_node(THERMAL_REF, domain=THERMAL)
-    for e in d.elements:
-        if isinstance(e, TwoTerminal):
-            g.add_edge(e.a, e.b, element=e.name, kind=type(e).__name__)
-        elif isinstance(e, Thermoelectric):
-            g.add_edge(e.p, e.n, element=e.name, kind="pins")
-            g.add_edge(e.a, e.b, element=e.name, kind="sides")
-        elif isinstance(e, Fixed):
-            g.add_edge(e.node, THERMAL_REF, element=e.name, kind="Fixed")
-        elif isinstance(e, Heat):
-            g.add_edge(e.node, THERMAL_REF, element=e.name, kind="Heat")
-    for n in d.nodes.values():
-        if n.capacity is not None:
-            g.add_edge(n.name, THERMAL_REF, element=n.name, kind="mass")
+    for a, b, name, kind in _branches(d):
+        g.add_edge(a, b, element=name, kind=kind)
     return g
 
 
@@ -157,12 +161,15 @@ def check_design(d: Design) -> None:
 
 def unused_warnings(d: Design) -> list[str]:
     """Nodes with a single connection: legal, but often a typo."""
-    g = graph(d)
+    degree: Counter = Counter()
+    for a, b, _, _ in _branches(d):
+        degree[a] += 1
+        degree[b] += 1
     out = []
     for n in d.nodes.values():
         if n.name in d.grounds or n.capacity is not None:
             continue
-        if g.degree(n.name) == 1:
+        if degree[n.name] == 1:
             out.append(f"{n.loc}: note: node `{n.name}` has one connection")
     return out
 

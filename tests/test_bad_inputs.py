@@ -116,3 +116,13 @@ def test_several_errors_are_all_reported(tmp_path, monkeypatch, capsys):
     err = capsys.readouterr().err
     assert "many.etn:1:8: error:" in err and "many.etn:2:8: error:" in err and "many.etn:4:12: error:" in err
     assert "3 errors" in err
+
+
+def test_node_with_one_connection_gets_a_note(tmp_path, monkeypatch, capsys):
+    """Legal but often a typo: a link that ends at a node nothing else touches."""
+    (tmp_path / "one.etn").write_text("fixed r 300 K\nmass m 1 J/K\nlink l m r 1 W/K\nlink d m x 1 W/K\n")
+    monkeypatch.chdir(tmp_path)
+    assert main(["check", "one.etn"]) == 0
+    err = capsys.readouterr().err
+    assert "one.etn:4:10: note: node `x` has one connection" in err
+    assert "`m`" not in err and "`r`" not in err
