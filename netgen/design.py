@@ -243,6 +243,19 @@ class Audit:
 
 
 @dataclass
+class BaselineTolerance:
+    """`baseline [SIGNAL ...] within TOL [and TOL]`: how far `netgen verify` lets the recorded
+    signals move from their baseline. `atol` is in the SI unit `unit`; `rtol` is a share of the
+    signal's range. `signals` empty means every recorded signal in `unit` (or all, for `rtol`)."""
+
+    signals: tuple[str, ...]
+    loc: Loc
+    atol: float | None = None
+    unit: str | None = None
+    rtol: float | None = None
+
+
+@dataclass
 class Design:
     """Everything a description says, in SI. Every later stage reads only this."""
 
@@ -257,6 +270,7 @@ class Design:
     audits: list[Audit] = field(default_factory=list)
     params: dict[str, tuple[float, str]] = field(default_factory=dict)
     materials: dict[str, Material] = field(default_factory=dict)
+    baseline_tolerances: list[BaselineTolerance] = field(default_factory=list)
     celsius: bool = False  # the text wrote temperatures in degC: show °C beside K
 
     def element(self, name: str) -> Element | None:

@@ -101,13 +101,26 @@ def parse_rtol(values: list[str] | None) -> tuple[float | None, dict[str, float]
     return every, per
 
 
+_UNIT_OF = {"T": "K", "V": "V", "I": "A", "Q": "W", "P": "W"}
+
+
 def tolerances_for(signals: list[str], stored: Baseline | None, rtol: float | None,
-                   per_signal: dict[str, float]) -> dict[str, Tolerance]:
-    """Command line first, then the tolerances stored in the baseline, then the defaults."""
+                   per_signal: dict[str, float], design_tols=()) -> dict[str, Tolerance]:
+    """Command line first, then the design's `baseline ... within`, then the tolerances stored
+    in the baseline, then the defaults."""
     out = {}
     for s in signals:
         tol = stored.tolerances.get(s) if stored is not None else None
         tol = tol or default_tolerance(s)
+        for entry in design_tols:  # later statements win over earlier ones
+            if entry.signals and s not in entry.signals:
+                continue
+            atol, rel = tol.atol, tol.rtol
+            if entry.atol is not None and _UNIT_OF.get(s[:1]) == entry.unit:
+                atol = entry.atol
+            if entry.rtol is not None:
+                rel = entry.rtol
+            tol = Tolerance(atol, rel)
         if s in per_signal:
             tol = Tolerance(tol.atol, per_signal[s])
         elif rtol is not None:
@@ -149,7 +162,7 @@ def attach_baseline(o: Outcome, directory: Path | None = None, rtol: float | Non
                 raise
     res = o.results
     names = recorded(res)
-    tols = tolerances_for(names, o.baseline, rtol, per_signal or {})
+    tols = tolerances_for(names, o.baseline, rtol, per_signal or {}, o.results.design.baseline_tolerances)
     if o.baseline is not None:
         o.comparison = compare(o.baseline, res.time, res.waveforms, res.steady, names, tols)
     if update:

@@ -235,3 +235,38 @@ def test_examples_verify_against_their_own_baselines(tmp_path, capsys):
     assert len(list((ex / "baselines").glob("*.json"))) == n
     code, out, _ = verify(capsys, ex)
     assert code == 0 and out.count("baseline ok") == n, out
+
+
+def test_design_states_its_own_baseline_tolerances(tmp_path, capsys):
+    """`baseline ... within`: a 2 % heat change moves T(m) by 40 mK and Q(l) by 20 mW
+    (P/G rise and P through the link, lumped block); a design that allows 0.1 K on T(m) and 5 %
+    of the range on everything passes, one that allows 10 mK on T(m) fails there."""
+    f = tmp_path / "block.etn"
+    f.write_text(BLOCK + "baseline within 5 %\nbaseline T(m) within 0.1 K\n")
+    assert verify(capsys, f, "--update-baseline")[0] == 0
+    stored = json.loads((tmp_path / "baselines" / "block.json").read_text())
+    assert stored["tolerances"]["T(m)"] == {"atol": 0.1, "rtol": 0.05}
+    assert stored["tolerances"]["Q(l)"]["rtol"] == 0.05
+    code, out, _ = verify(capsys, f, "--set", "P=1.02W")
+    assert code == 0, out
+    f.write_text(BLOCK + "baseline T(m) within 10 mK and 0\nbaseline Q(l) within 1 W\n")
+    code, out, _ = verify(capsys, f, "--set", "P=1.02W")
+    assert code == 1 and "FAIL  baseline: T(m) is off by" in out
+    # The command line's --rtol still wins over the design.
+    code, out, _ = verify(capsys, f, "--set", "P=1.02W", "--rtol", "T(m)=0.05")
+    assert code == 0, out
+
+
+@pytest.mark.parametrize("line, fragment", [
+    ("baseline T(m) within 1 V", "T(m) is not in V"),
+    ("baseline within 1 %, 2 %", "unexpected"),
+    ("baseline within 1 % and 2 %", "two relative tolerances"),
+    ("baseline T(m) within 25 degC", "is absolute"),
+    ("baseline T(q) within 1 K", "unknown node `q`"),
+])
+def test_bad_baseline_tolerances_are_located(tmp_path, capsys, line, fragment):
+    f = tmp_path / "block.etn"
+    f.write_text(BLOCK + line + "\n")
+    code, out, err = verify(capsys, f)
+    line_no = BLOCK.count("\n") + 1
+    assert code == 2 and fragment in out + err and f"block.etn:{line_no}:" in out + err

@@ -13,7 +13,7 @@ from .. import units as U
 from ..design import (
     ELECTRICAL, THERMAL, Audit, Capacitor, CurrentSource, Design, Expectation, Fixed, Heat,
     Inductor, Link, Loc, Node, Resistor, Signal, Steady, Switch, Tempco, Thermoelectric,
-    Transient, VoltageSource, Modes, Material,
+    Transient, VoltageSource, Modes, Material, BaselineTolerance,
 )
 from ..errors import NetgenError, NetgenErrors
 from ..expr import Const, Wave, evaluate
@@ -25,7 +25,7 @@ MAX_ERRORS = 20
 NOT_YET: dict[str, str] = {}  # statements of LANGUAGE.md not implemented yet, with a hint
 # Statements that make sense only once per design, not inside a reusable part.
 TOP_LEVEL_ONLY = ("design", "steady", "transient", "modes", "record", "expect_agg", "expect_at", "audit",
-                  "material", "part", "include")
+                  "material", "part", "include", "baseline")
 
 _TOKEN_WORDS = {
     "_NL": "end of line", "NAME": "a name", "QUANTITY": "a number", "LPAR": "`(`", "RPAR": "`)`",
@@ -35,7 +35,7 @@ _TOKEN_WORDS = {
 
 STATEMENTS = (
     "design let mass fixed link heat ground resistor capacitor inductor source switch "
-    "thermoelectric material steady transient modes record expect audit part use include plate"
+    "thermoelectric material steady transient modes record expect audit part use include plate baseline"
 ).split()
 
 
@@ -606,6 +606,42 @@ class Elaborator:
         at_time = self.const(time_t, U.TIME, "a time", nonneg=True)
         self._expect_common(t, expr_t, cmp_tok, limit_t, opts, "at", at_time)
 
+    def st_baseline(self, t):
+        *sig_trees, first, second = t.children
+        signals = []
+        for s in sig_trees:
+            kind = str(s.children[0])
+            names = tuple(str(c) for c in s.children[1:] if c is not None)
+            if kind not in SIGNAL_KINDS:
+                raise self.err(s, f"unknown signal `{kind}(...)`", "signals are T(node) V(node) I(elem) Q(elem) P(elem)")
+            signals.append(Signal(kind, names, self.loc(s)).text)
+            self.pending_signals.append((kind, names, s))
+        entry = BaselineTolerance(tuple(signals), self.loc(t))
+        units = {U.unit_name(d) for d in (U.TEMPERATURE, U.VOLTAGE, U.CURRENT, U.POWER)}
+        for tree in (first, second):
+            if tree is None:
+                continue
+            typed = self.typed(tree)
+            if not isinstance(typed.expr, Const) or not typed.value >= 0 or not math.isfinite(typed.value):
+                raise self.err(tree, "a baseline tolerance is a constant that is not negative")
+            if typed.dim.dimensionless:
+                if entry.rtol is not None:
+                    raise self.err(tree, "two relative tolerances", "give one absolute (in the signal's unit) and one relative")
+                entry.rtol = typed.value
+                continue
+            unit = U.unit_name(typed.dim)
+            if unit not in units or typed.celsius:
+                raise self.err(tree, f"an absolute tolerance is a difference in K, V, A or W, not {unit}"
+                               + (" (a temperature in degC is absolute: write K)" if typed.celsius else ""))
+            if entry.atol is not None:
+                raise self.err(tree, "two absolute tolerances", "give one absolute (in the signal's unit) and one relative")
+            wrong = [s for s in signals if _SIGNAL_UNITS[s[0]] != unit]
+            if wrong:
+                raise self.err(tree, f"{', '.join(wrong)} {'is' if len(wrong) == 1 else 'are'} not in {unit}",
+                               "list the signals of one unit together")
+            entry.atol, entry.unit = typed.value, unit
+        self.design.baseline_tolerances.append(entry)
+
     def st_audit(self, t):
         kind_tok, within_t = t.children
         within = self.const(within_t, U.NONE, "an audit tolerance", positive=True) if within_t is not None else None
@@ -744,6 +780,9 @@ class Elaborator:
             except ValueError as e:
                 msg, hint = e.args if len(e.args) == 2 else (e.args[0], None)
                 self.errors.append(self.err(tree, msg, hint))
+
+
+_SIGNAL_UNITS = {"T": "K", "V": "V", "I": "A", "Q": "W", "P": "W"}
 
 
 class _Stop(Exception):
