@@ -3,7 +3,6 @@ from __future__ import annotations
 
 import difflib
 import math
-from dataclasses import dataclass
 from pathlib import Path
 
 from lark import Token, Tree
@@ -19,7 +18,8 @@ from ..errors import NetgenError, NetgenErrors
 from ..expr import Const, Wave, evaluate
 from . import plate
 from .grammar import parser, paused_gc
-from .quantities import ExprReader, SIGNAL_KINDS, Typed, read_quantity
+from .parts import PartDef, PartsMixin  # noqa: F401
+from .quantities import ExprReader, SIGNAL_KINDS, Typed
 
 MAX_ERRORS = 20
 NOT_YET: dict[str, str] = {}  # statements of LANGUAGE.md not implemented yet, with a hint
@@ -65,19 +65,7 @@ def load_text(text: str, filename: str = "<text>", overrides: dict[str, str] | N
     return design
 
 
-@dataclass
-class PartDef:
-    """A `part` as written: its ports, its statements, and the file they came from."""
-
-    name: str
-    ports: list[str]
-    body: list
-    loc: Loc
-    file: str
-    lines: list[str]
-
-
-class Elaborator:
+class Elaborator(PartsMixin):
     def __init__(self, text: str, filename: str, overrides: dict[str, str]):
         self.text = text
         self.lines = text.splitlines()  # of the file being read now (changes inside includes)
@@ -647,98 +635,8 @@ class Elaborator:
         within = self.const(within_t, U.NONE, "an audit tolerance", positive=True) if within_t is not None else None
         self.design.audits.append(Audit(str(kind_tok), self.loc(t), within))
 
-    # ---- parts and files ----------------------------------------------------------
-    def st_part(self, t):
-        name_tok, *rest = t.children
-        name = str(name_tok)
-        ports = [str(p) for p in rest if isinstance(p, Token) and p.type == "NAME"]
-        body = [c for c in rest if isinstance(c, Tree)]
-        if name in self.parts:
-            raise self.err(name_tok, f"part `{name}` is already defined at {self.parts[name].loc}")
-        if len(set(ports)) != len(ports):
-            raise self.err(name_tok, f"part `{name}` names a port twice")
-        self.parts[name] = PartDef(name, ports, body, self.loc(name_tok), self.file, self.lines)
-
-    def st_use(self, t):
-        part_tok, inst_tok, *rest = t.children
-        part = self.parts.get(str(part_tok))
-        if part is None:
-            close = difflib.get_close_matches(str(part_tok), list(self.parts), n=1)
-            raise self.err(part_tok, f"unknown part `{part_tok}`",
-                           f"did you mean `{close[0]}`?" if close else "define it first with `part NAME(PORTS) { ... }`")
-        if part.name in self.expanding:
-            raise self.err(part_tok, f"part `{part.name}` uses itself", "parts may not be recursive")
-        nodes = [c for c in rest if isinstance(c, Token) and c.type == "NAME"]
-        bindings = [c for c in rest if isinstance(c, Tree) and c.data == "binding"]
-        if len(nodes) != len(part.ports):
-            raise self.err(inst_tok, f"part `{part.name}` has {len(part.ports)} ports "
-                           f"({', '.join(part.ports) or 'none'}), but {len(nodes)} nodes are given")
-        inst = self.prefix + str(inst_tok)
-        if inst in self.element_locs or any(k.startswith(inst + ".") for k in self.element_locs):
-            raise self.err(inst_tok, f"`{inst_tok}` is already used as a name")
-        given = {}
-        for b in bindings:
-            bname, bexpr = b.children
-            if str(bname) in given:
-                raise self.err(bname, f"`{bname}` is given twice")
-            given[str(bname)] = self.typed(bexpr)
-        ports = {p: self.qualify(str(n)) for p, n in zip(part.ports, nodes)}
-        saved = (self.prefix, self.ports, self.local_names, self.bindings, self.params, self.param_locs,
-                 self.file, self.lines)
-        where = self.loc(t)
-        self.prefix, self.ports, self.local_names, self.bindings = inst + ".", ports, set(), dict(given)
-        self.params, self.param_locs = dict(self.params), dict(self.param_locs)
-        self.file, self.lines = part.file, part.lines
-        self.expanding.append(part.name)
-        try:
-            for stmt in part.body:
-                self.statement(stmt)
-            if self.bindings:
-                extra = sorted(self.bindings)
-                raise NetgenError(f"part `{part.name}` has no parameter {', '.join('`' + x + '`' for x in extra)}",
-                                  where, "`with` sets a part's own `let` defaults")
-        except NetgenError as e:
-            e.notes.append(f"in part `{part.name}` used as `{inst}` at {where}")
-            raise
-        finally:
-            self.expanding.pop()
-            (self.prefix, self.ports, self.local_names, self.bindings, self.params, self.param_locs,
-             self.file, self.lines) = saved
-
     def st_plate(self, t):
         plate.elaborate(self, t)
-
-    def st_include(self, t):
-        tok = t.children[0]
-        rel = str(tok)[1:-1]
-        base = Path(self.file).resolve().parent if self.file != "<text>" else Path.cwd()
-        path = (base / rel).resolve()
-        if path.suffix != ".etn":
-            raise self.err(tok, f"`{rel}` is not a .etn file", "only descriptions ending in .etn can be included")
-        if path in self.including:
-            raise self.err(tok, f"`{rel}` is already being read: an include cycle")
-        try:
-            text = path.read_bytes().decode("utf-8")
-        except OSError as e:
-            raise self.err(tok, f"cannot read `{rel}`: {e.strerror or e}") from None
-        except UnicodeDecodeError:
-            raise self.err(tok, f"`{rel}` is not valid UTF-8") from None
-        where = self.loc(t)
-        saved = (self.file, self.lines)
-        self.file, self.lines = str(path), text.splitlines()
-        self.including.append(path)
-        before = len(self.errors)
-        try:
-            tree = self.parse(text)
-            self.statements(tree.children)
-        except NetgenError as e:
-            e.notes.append(f"included from {where}")
-            raise
-        finally:
-            for e in self.errors[before:]:
-                e.notes.append(f"included from {where}")
-            self.including.pop()
-            self.file, self.lines = saved
 
     # ---- signals -----------------------------------------------------------------
     def signal_dim(self, kind, names, tree) -> U.Dim:
@@ -791,7 +689,6 @@ class _Stop(Exception):
 
 def check_signal(d: Design, kind: str, names: tuple[str, ...]) -> None:
     """Raise ValueError(message, hint) when a signal does not fit the design."""
-    from ..design import Element  # noqa: F401
 
     def nearest(name, pool):
         close = difflib.get_close_matches(name, list(pool), n=1)
