@@ -4,12 +4,12 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import numpy as np
+from .design import signal_unit
 
 DEFAULT_RTOL = 1e-3  # of the signal's range in the baseline
 # Absolute floors by kind: a few mK for temperatures (they sit near 300 K, so a share of their
 # value would be far too loose), and the solver's own floors for the rest.
 ATOL = {"T": 5e-3, "V": 1e-6, "I": 1e-6, "Q": 1e-6, "P": 1e-6}
-UNITS = {"T": "K", "V": "V", "I": "A", "Q": "W", "P": "W"}
 
 
 @dataclass(frozen=True)
@@ -26,8 +26,7 @@ class Tolerance:
         return {"atol": self.atol, "rtol": self.rtol}
 
 
-def unit_of(signal: str) -> str:
-    return UNITS.get(signal[:1], "")
+unit_of = signal_unit
 
 
 def default_tolerance(signal: str, rtol: float | None = None) -> Tolerance:

@@ -204,6 +204,14 @@ class Modes:
     loc: Loc
 
 
+SIGNAL_UNITS = {"T": "K", "V": "V", "I": "A", "Q": "W", "P": "W"}
+
+
+def signal_unit(signal: str) -> str:
+    """The SI unit of a signal written as text, e.g. `K` for `T(die)`; "" for anything else."""
+    return SIGNAL_UNITS.get(signal[:1], "")
+
+
 @dataclass
 class Signal:
     """A result signal as written, e.g. T(die), V(a, b), Q(tec1.a)."""

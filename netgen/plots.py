@@ -12,6 +12,7 @@ from .errors import NetgenError
 from .expr import SignalRef, evaluate
 from .report import ZERO_C, write_atomic
 from .results import Results
+from .design import signal_unit
 
 CURVE = "#1f4e9c"  # this run
 BASELINE = "#8c8c8c"  # the stored baseline, dashed
@@ -19,7 +20,6 @@ LIMITS = ("#c23b22", "#e08a00", "#7b3fa0", "#2a8c82", "#8a5a2b")  # expectation 
 _QUANTITY = {"T": "temperature", "V": "voltage", "I": "current", "Q": "heat flow", "P": "power"}
 _BY_UNIT = {"K": "temperature difference", "V": "voltage", "A": "current", "W": "power", "1": "ratio"}
 SIZE, DPI = (8.0, 3.4), 110
-_AXIS_UNITS = {"T": "K", "V": "V", "I": "A", "Q": "W", "P": "W"}
 
 
 def require() -> None:
@@ -101,7 +101,7 @@ def series_for(res: Results, base=None) -> list[Series]:
             bt = bv = None
             if base is not None and base.time is not None and s in base.signals:
                 bt, bv = base.time, base.signals[s]
-            out[s] = Series(slug(s), s, _AXIS_UNITS.get(s[0], ""), d.celsius and s.startswith("T("),
+            out[s] = Series(slug(s), s, signal_unit(s), d.celsius and s.startswith("T("),
                             res.time, np.asarray(res.waveforms[s], dtype=float), [], bt, bv)
     checks = {id(e): c for e, c in zip(d.expectations, res.checks)}
     for e in d.expectations:
@@ -122,7 +122,7 @@ def series_for(res: Results, base=None) -> list[Series]:
                 except KeyError:
                     pass
             if isinstance(e.expr, SignalRef):  # a signal the design does not record
-                out[key] = Series(slug(key), key, _AXIS_UNITS.get(key[0], ""), d.celsius and key.startswith("T("),
+                out[key] = Series(slug(key), key, signal_unit(key), d.celsius and key.startswith("T("),
                                   res.time, np.asarray(y, dtype=float), [], bt, bv)
             else:
                 out[key] = Series(f"expect_line{e.loc.line}" if e.loc else slug(key), key, e.unit, e.celsius,

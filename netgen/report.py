@@ -14,7 +14,7 @@ from pathlib import Path
 import numpy as np
 
 from . import __version__
-from .design import ELECTRICAL, THERMAL, Design, Thermoelectric
+from .design import ELECTRICAL, THERMAL, Design, Thermoelectric, signal_unit
 from .results import Results
 
 ZERO_C = 273.15
@@ -85,8 +85,7 @@ def _start_temperatures(d: Design) -> dict[str, float]:
     return {n.name: float(x[sys_.node_index[n.name]]) for n in d.nodes.values() if n.domain == THERMAL}
 
 
-def _unit(signal: str) -> str:
-    return {"T": "K", "V": "V", "I": "A", "Q": "W", "P": "W"}.get(signal[0], "")
+_unit = signal_unit
 
 
 def fmt(signal: str, v: float, celsius: bool) -> str:

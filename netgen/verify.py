@@ -11,6 +11,7 @@ from .compare import Comparison, Tolerance, compare, default_tolerance
 from .errors import NetgenError
 from .report import check_text, write_atomic
 from .results import Check, Results
+from .design import signal_unit
 
 
 @dataclass
@@ -101,7 +102,6 @@ def parse_rtol(values: list[str] | None) -> tuple[float | None, dict[str, float]
     return every, per
 
 
-_UNIT_OF = {"T": "K", "V": "V", "I": "A", "Q": "W", "P": "W"}
 
 
 def tolerances_for(signals: list[str], stored: Baseline | None, rtol: float | None,
@@ -116,7 +116,7 @@ def tolerances_for(signals: list[str], stored: Baseline | None, rtol: float | No
             if entry.signals and s not in entry.signals:
                 continue
             atol, rel = tol.atol, tol.rtol
-            if entry.atol is not None and _UNIT_OF.get(s[:1]) == entry.unit:
+            if entry.atol is not None and signal_unit(s) == entry.unit:
                 atol = entry.atol
             if entry.rtol is not None:
                 rel = entry.rtol

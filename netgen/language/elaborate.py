@@ -12,7 +12,7 @@ from .. import units as U
 from ..design import (
     ELECTRICAL, THERMAL, Audit, Capacitor, CurrentSource, Design, Expectation, Fixed, Heat,
     Inductor, Link, Loc, Node, Resistor, Signal, Steady, Switch, Tempco, Thermoelectric,
-    Transient, VoltageSource, Modes, Material, BaselineTolerance,
+    Transient, VoltageSource, Modes, Material, BaselineTolerance, signal_unit,
 )
 from ..errors import NetgenError, NetgenErrors
 from ..expr import Const, Wave, evaluate
@@ -623,7 +623,7 @@ class Elaborator(PartsMixin):
                                + (" (a temperature in degC is absolute: write K)" if typed.celsius else ""))
             if entry.atol is not None:
                 raise self.err(tree, "two absolute tolerances", "give one absolute (in the signal's unit) and one relative")
-            wrong = [s for s in signals if _SIGNAL_UNITS[s[0]] != unit]
+            wrong = [s for s in signals if signal_unit(s) != unit]
             if wrong:
                 raise self.err(tree, f"{', '.join(wrong)} {'is' if len(wrong) == 1 else 'are'} not in {unit}",
                                "list the signals of one unit together")
@@ -680,7 +680,6 @@ class Elaborator(PartsMixin):
                 self.errors.append(self.err(tree, msg, hint))
 
 
-_SIGNAL_UNITS = {"T": "K", "V": "V", "I": "A", "Q": "W", "P": "W"}
 
 
 class _Stop(Exception):

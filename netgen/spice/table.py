@@ -5,8 +5,8 @@ import math
 import textwrap
 
 from .compare import Report, Row
+from ..design import signal_unit
 
-UNITS = {"T": "K", "V": "V", "I": "A", "Q": "W", "P": "W"}
 PREFIXES = [(1e9, "G"), (1e6, "M"), (1e3, "k"), (1.0, ""), (1e-3, "m"), (1e-6, "u"), (1e-9, "n"),
             (1e-12, "p"), (1e-15, "f")]
 
@@ -23,8 +23,7 @@ def quantity(v: float, unit: str, digits: int = 3) -> str:
     return f"{v:.{digits}g} {unit}"
 
 
-def _unit(signal: str) -> str:
-    return UNITS.get(signal[0], "")
+_unit = signal_unit
 
 
 def _rel(r: Row) -> str:
