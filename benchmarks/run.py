@@ -35,8 +35,8 @@ import json, sys, time
 import numpy as np
 t0 = time.perf_counter()
 import netgen
-from netgen.analysis.steady import solve_dc
-from netgen.assemble import assemble
+from netgen.solve.steady import solve_dc
+from netgen.solve.assembly import assemble
 t1 = time.perf_counter()
 d = netgen.load(sys.argv[1])
 t2 = time.perf_counter()

@@ -3,16 +3,16 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from .design import Design
-from .errors import NetgenError
-from .results import Results
-
 __version__ = "0.1.0"
+
+from netgen.model.design import Design
+from netgen.model.errors import NetgenError
+from netgen.checks.results import Results
 
 
 def load(path_or_text, overrides: dict[str, str] | None = None) -> Design:
     """Read a design from a path or from .etn text (anything containing a newline is text)."""
-    from .language import load as _load, load_text
+    from netgen.language import load as _load, load_text
 
     text = str(path_or_text)
     if isinstance(path_or_text, Path) or ("\n" not in text and (Path(text).suffix == ".etn" or Path(text).is_file())):

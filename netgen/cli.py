@@ -5,8 +5,8 @@ import argparse
 import sys
 from pathlib import Path
 
-from . import __version__
-from .errors import NetgenError
+from netgen import __version__
+from netgen.model.errors import NetgenError
 
 EXIT_OK, EXIT_FAILED, EXIT_INPUT, EXIT_SIMULATOR = 0, 1, 2, 3
 
@@ -29,20 +29,20 @@ def _settings(pairs: list[str] | None) -> dict[str, str]:
 
 
 def _load(args):
-    from .language import load
+    from netgen.language import load
 
     return load(args.file, _settings(getattr(args, "set", None)))
 
 
 def _notes(d) -> None:
-    from .topology import unused_warnings
+    from netgen.solve.topology import unused_warnings
 
     for w in unused_warnings(d):
         print(w, file=sys.stderr)
 
 
 def cmd_check(args) -> int:
-    from .report import describe
+    from netgen.outputs.report import describe
 
     d = _load(args)
     print(describe(d))
@@ -51,17 +51,17 @@ def cmd_check(args) -> int:
 
 
 def cmd_run(args) -> int:
-    from .report import print_results, write_outputs
+    from netgen.outputs.report import print_results, write_outputs
 
     if args.plot or args.report:
-        from .plots import require
+        from netgen.outputs.plots import require
 
         require()  # before the solve: a missing matplotlib should not cost a long transient
     d = _load(args)
     _notes(d)
     progress = None
     if sys.stderr.isatty() and not args.quiet:
-        from .report import Progress
+        from netgen.outputs.report import Progress
 
         progress = Progress(d.transient.until if d.transient else 1.0)
     try:
@@ -83,7 +83,7 @@ def cmd_run(args) -> int:
 
 def _run_pictures(args, res) -> None:
     """`run --plot DIR` and `run --report OUT.html`, with the design's baseline overlaid if it has one."""
-    from .verify import Outcome, attach_baseline
+    from netgen.regression.verify import Outcome, attach_baseline
 
     o = Outcome(Path(args.file), _settings(args.set), results=res)
     try:
@@ -91,26 +91,26 @@ def _run_pictures(args, res) -> None:
     except NetgenError as e:
         print(f"note: the baseline is not shown: {e.message}", file=sys.stderr)
     if args.plot:
-        from .plots import write_plots
+        from netgen.outputs.plots import write_plots
 
         written = write_plots(res, Path(args.plot), o.baseline)
         n = len([w for w in written if w.suffix == ".png"])
         print(f"wrote {n} plots (PNG and SVG) to {args.plot}" if written else "no transient: nothing to plot")
     if args.report:
-        from .report import write_atomic
-        from .webreport import html_report
+        from netgen.outputs.report import write_atomic
+        from netgen.outputs.html import html_report
 
         write_atomic(Path(args.report), html_report([o], f"netgen run: {Path(args.file).name}"))
         print(f"wrote {args.report}")
 
 
 def cmd_verify(args) -> int:
-    from .verify import check_names, design_files, exit_code, outcome_lines, parse_rtol, total_line, verify_file
+    from netgen.regression.verify import check_names, design_files, exit_code, outcome_lines, parse_rtol, total_line, verify_file
 
     settings = _settings(args.set)
     rtol, per_signal = parse_rtol(args.rtol)
     if args.report:
-        from .plots import require
+        from netgen.outputs.plots import require
 
         require()
     files = design_files(args.paths)
@@ -123,14 +123,14 @@ def cmd_verify(args) -> int:
         outcomes.append(o)
     print(total_line(outcomes))
     if args.junit:
-        from .junit import junit_xml
-        from .report import write_atomic
+        from netgen.outputs.junit import junit_xml
+        from netgen.outputs.report import write_atomic
 
         write_atomic(Path(args.junit), junit_xml(outcomes))
         print(f"wrote {args.junit}")
     if args.report:
-        from .report import write_atomic
-        from .webreport import html_report
+        from netgen.outputs.report import write_atomic
+        from netgen.outputs.html import html_report
 
         write_atomic(Path(args.report), html_report(outcomes, "netgen verify"))
         print(f"wrote {args.report}")
@@ -142,7 +142,7 @@ def cmd_verify(args) -> int:
 
 
 def _run_with(d, progress):
-    from .runner import run_design
+    from netgen.analyses import run_design
 
     try:
         return run_design(d, progress)
@@ -151,12 +151,12 @@ def _run_with(d, progress):
 
 
 def cmd_export(args) -> int:
-    from .spice.netlist import write_netlist
+    from netgen.spice.netlist import write_netlist
 
     d = _load(args)
     text = write_netlist(d)
     if args.output:
-        from .report import write_atomic
+        from netgen.outputs.report import write_atomic
 
         write_atomic(Path(args.output), text)
         print(f"wrote {args.output}")
@@ -166,8 +166,8 @@ def cmd_export(args) -> int:
 
 
 def cmd_crosscheck(args) -> int:
-    from .spice.compare import Tolerances, crosscheck
-    from .spice.runner import SimulatorError
+    from netgen.spice.crosscheck import Tolerances, crosscheck
+    from netgen.spice.simulator import SimulatorError
 
     d = _load(args)
     try:
@@ -192,7 +192,7 @@ def _positive(text: str) -> float:
 
 
 def cmd_matrices(args) -> int:
-    from .report import write_matrices
+    from netgen.outputs.report import write_matrices
 
     d = _load(args)
     for path in write_matrices(d, Path(args.output)):

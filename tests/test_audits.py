@@ -7,7 +7,7 @@ import pytest
 
 import netgen
 from netgen.language import load_text
-from netgen.audits import energy_audit, entropy_audit, needed_signals
+from netgen.checks.audits import energy_audit, entropy_audit, needed_signals
 
 EXAMPLES = sorted((Path(__file__).resolve().parents[1] / "examples").glob("*.etn"))
 

@@ -14,10 +14,10 @@ from hypothesis import strategies as st
 
 import netgen
 from netgen.cli import main
-from netgen.spice.compare import Tolerances, compare, crosscheck, for_comparison, jumps
+from netgen.spice.crosscheck import Tolerances, compare, crosscheck, for_comparison, jumps
 from netgen.spice.netlist import netlist
 from netgen.spice.raw import Plot, RawError, find_plot, read_raw
-from netgen.spice.runner import SimulatorError, simulate
+from netgen.spice.simulator import SimulatorError, simulate
 
 EXAMPLES = sorted((Path(__file__).resolve().parents[1] / "examples").glob("*.etn"))
 COOLER = next(p for p in EXAMPLES if p.name == "detector_cooler.etn")
@@ -228,7 +228,7 @@ def test_interpolation_is_pchip_piece_by_piece():
     corners, computed for all pieces at once; a corner the simulator stepped over is named."""
     from scipy.interpolate import PchipInterpolator
 
-    from netgen.spice.grid import Onto
+    from netgen.spice.resample import Onto
 
     rng = np.random.default_rng(2)
     for trial in range(200):
@@ -342,7 +342,7 @@ def test_wrong_netlist_is_a_mismatch(ngspice, edit, signals):
 
 
 def test_wrong_netlist_exits_1_naming_the_signal(ngspice, monkeypatch, capsys):
-    import netgen.spice.compare as cmp
+    import netgen.spice.crosscheck as cmp
 
     real = cmp.netlist
     monkeypatch.setattr(cmp, "netlist", lambda d: (_flip_peltier(real(d)[0]), real(d)[1]))
@@ -539,7 +539,7 @@ def test_pulse_is_high_at_the_end_of_its_rise_from_the_left():
     """Found by the property test: netgen took a pulse's value just before the end of a finite
     rise as `low`, so the transient's step landing there used the wrong source value and the
     row stored at that corner was wrong (here V = 25.3 ohm · low instead of · high)."""
-    from netgen.expr import shape_value
+    from netgen.model.expr import shape_value
 
     args = (-0.174, -0.116, 0.0, 0.163, 0.05, 0.61, 5.0)
     for t in (0.163, 5.163):  # the first period and a later one

@@ -5,9 +5,9 @@ import os
 import pytest
 
 import netgen
-from netgen import report
+from netgen.outputs import report
 from netgen.cli import main
-from netgen.errors import SolveError
+from netgen.model.errors import SolveError
 
 COOLING = """
 fixed hot 300 K

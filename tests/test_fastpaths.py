@@ -10,9 +10,9 @@ import pytest
 from lark import Token, Tree
 
 import netgen
-from netgen.analysis.steady import solve_dc
-from netgen.analysis.transient import integrate
-from netgen.assemble import System, assemble
+from netgen.solve.steady import solve_dc
+from netgen.solve.transient import integrate
+from netgen.solve.assembly import System, assemble
 from netgen.language.grammar import parser
 
 EXAMPLES = Path(__file__).resolve().parents[1] / "examples"
@@ -68,7 +68,7 @@ class _General(System):
 def test_linear_stage_equals_its_newton_solve(h):
     """Each TR-BDF2 stage of a linear network is one back-substitution; through Newton (the
     general path) the same stage gives the same state to 1e-9."""
-    from netgen.analysis import transient as tr
+    from netgen.solve import transient as tr
 
     sys = assemble(netgen.load(LINEAR))
     x0 = solve_dc(sys, 0.0, impose=True)

@@ -8,7 +8,7 @@ from pathlib import Path
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from netgen.errors import NetgenError
+from netgen.model.errors import NetgenError
 from netgen.language import load_text
 
 ROOT = Path(__file__).resolve().parents[1]

@@ -11,10 +11,10 @@ import numpy as np
 import pytest
 
 import netgen
-from netgen.analysis.steady import solve_dc
-from netgen.assemble import assemble
+from netgen.solve.steady import solve_dc
+from netgen.solve.assembly import assemble
 from netgen.cli import main
-from netgen.expr import evaluate
+from netgen.model.expr import evaluate
 from netgen.spice import raw
 from netgen.spice.netlist import netlist, write_netlist
 

@@ -3,7 +3,7 @@ import numpy as np
 import pytest
 
 import netgen
-from netgen.errors import NetgenError
+from netgen.model.errors import NetgenError
 
 STAGE = """
 part stage(top, bottom) {

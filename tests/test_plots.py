@@ -67,8 +67,8 @@ def test_verify_report_is_self_contained(warm, tmp_path, capsys):
 
 @needs_mpl
 def test_axes_units_limits_and_baseline(warm, capsys):
-    from netgen import plots
-    from netgen.baseline import read
+    from netgen.outputs import plots
+    from netgen.regression.baseline import read
 
     main(["verify", str(warm), "--update-baseline"])
     res = netgen.load(warm).run()
@@ -93,7 +93,7 @@ def test_png_pixels_follow_the_curve(warm, tmp_path):
     from matplotlib.colors import to_rgb
     from matplotlib.image import imread
 
-    from netgen import plots
+    from netgen.outputs import plots
 
     res = netgen.load(warm).run()
     ser = plots.series_for(res)[0]

@@ -7,9 +7,9 @@ import math
 import pytest
 
 import netgen
-from netgen import units as U
-from netgen.errors import NetgenError
-from netgen.language.quantities import read_quantity
+from netgen.model import units as U
+from netgen.model.errors import NetgenError
+from netgen.language.expressions import read_quantity
 
 
 @pytest.mark.parametrize("text, value, dim", [

@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 
 from netgen.cli import main
-from netgen.compare import Tolerance, default_tolerance, resample
+from netgen.regression.diff import Tolerance, default_tolerance, resample
 
 # A block warmed by a heat step: T rises by P/G = 2 K with time constant C/G = 4 s.
 BLOCK = """design "Warm-up of a small block"

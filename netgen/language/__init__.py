@@ -1,2 +1,2 @@
 """Reading .etn text: grammar, syntax tree to Design, diagnostics."""
-from .elaborate import load, load_text  # noqa: F401
+from netgen.language.elaborate import load, load_text  # noqa: F401

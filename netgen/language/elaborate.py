@@ -8,18 +8,18 @@ from pathlib import Path
 from lark import Token, Tree
 from lark.exceptions import UnexpectedCharacters, UnexpectedEOF, UnexpectedInput, UnexpectedToken
 
-from .. import units as U
-from ..design import (
+from netgen.model import units as U
+from netgen.model.design import (
     ELECTRICAL, THERMAL, Audit, Capacitor, CurrentSource, Design, Expectation, Fixed, Heat,
     Inductor, Link, Loc, Node, Resistor, Signal, Steady, Switch, Tempco, Thermoelectric,
     Transient, VoltageSource, Modes, Material, BaselineTolerance, signal_unit,
 )
-from ..errors import NetgenError, NetgenErrors
-from ..expr import Const, Wave, evaluate
-from . import plate
-from .grammar import parser, paused_gc
-from .parts import PartDef, PartsMixin  # noqa: F401
-from .quantities import ExprReader, SIGNAL_KINDS, Typed
+from netgen.model.errors import NetgenError, NetgenErrors
+from netgen.model.expr import Const, Wave, evaluate
+from netgen.language import plate
+from netgen.language.grammar import parser, paused_gc
+from netgen.language.parts import PartDef, PartsMixin  # noqa: F401
+from netgen.language.expressions import ExprReader, SIGNAL_KINDS, Typed
 
 MAX_ERRORS = 20
 NOT_YET: dict[str, str] = {}  # statements of LANGUAGE.md not implemented yet, with a hint
@@ -57,7 +57,7 @@ def load(path, overrides: dict[str, str] | None = None) -> Design:
 
 def load_text(text: str, filename: str = "<text>", overrides: dict[str, str] | None = None) -> Design:
     """Read .etn text into a checked Design."""
-    from ..topology import check_design  # the structural checks run on the finished model
+    from netgen.solve.topology import check_design  # the structural checks run on the finished model
 
     with paused_gc():  # reading builds a large graph of objects and no garbage cycles
         design = Elaborator(text, filename, overrides or {}).run()
@@ -479,7 +479,7 @@ class Elaborator(PartsMixin):
                                f"did you mean `{close[0]}`?" if close else "define it first with `material NAME { ... }`")
             area = self.const(area_t, U.AREA, "a leg area", positive=True)
             length = self.const(len_t, U.LENGTH, "a leg length", positive=True)
-            from ..expr import Binary, Const as K_
+            from netgen.model.expr import Binary, Const as K_
 
             def scaled(expr, factor):
                 return Binary("*", K_(factor), expr)

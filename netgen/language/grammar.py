@@ -36,7 +36,7 @@ class Parser:
     """The LALR parser, with plain one-line statements of `start` text read by `lines.LineReader`."""
 
     def __init__(self, lark: Lark):
-        from .lines import LineReader
+        from netgen.language.plain_lines import LineReader
 
         self.lark = lark
         self.lines = LineReader(lark)

@@ -7,8 +7,8 @@ from pathlib import Path
 
 from lark import Token, Tree
 
-from ..design import Loc
-from ..errors import NetgenError
+from netgen.model.design import Loc
+from netgen.model.errors import NetgenError
 
 
 @dataclass

@@ -19,9 +19,9 @@ import difflib
 import re
 from dataclasses import dataclass
 
-from .. import units as U
-from ..design import THERMAL, Link, Loc, Node
-from ..errors import NetgenError
+from netgen.model import units as U
+from netgen.model.design import THERMAL, Link, Loc, Node
+from netgen.model.errors import NetgenError
 
 EDGES = ("left", "right", "top", "bottom")
 MAX_CELLS = 4_000_000  # 4e6 cells is several GB of model; more is surely a typing slip

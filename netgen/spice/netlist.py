@@ -7,14 +7,14 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..analysis.steady import solve_dc
-from ..assemble import assemble
-from ..design import (
+from netgen.solve.steady import solve_dc
+from netgen.solve.assembly import assemble
+from netgen.model.design import (
     ELECTRICAL, THERMAL, Capacitor, CurrentSource, Design, Fixed, Heat, Inductor, Link, Resistor,
     Switch, Thermoelectric, VoltageSource,
 )
-from ..errors import NetgenError
-from ..expr import Binary, Const, Expr, Func, Shape, Time, Unary, Var, Wave, evaluate
+from netgen.model.errors import NetgenError
+from netgen.model.expr import Binary, Const, Expr, Func, Shape, Time, Unary, Var, Wave, evaluate
 
 EDGE = 1e-3  # a jump becomes a linear edge this many output steps wide
 SAMPLES = 1000  # evenly spaced points of a sampled PWL over the run, besides its corners

@@ -6,7 +6,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ..errors import NetgenError
+from netgen.model.errors import NetgenError
 
 
 class RawError(NetgenError):

@@ -3,7 +3,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
-from .expr import Expr, Wave
+from netgen.model.expr import Expr, Wave
 
 THERMAL = "thermal"
 ELECTRICAL = "electrical"
@@ -181,7 +181,7 @@ class Thermoelectric(Element):
         """S, R, K at mean side temperature T (float or array)."""
         if self.props is None:
             return self.seebeck, self.resistance, self.conductance
-        from .expr import evaluate
+        from netgen.model.expr import evaluate
 
         return tuple(evaluate(e, T=T) for e in self.props)
 
@@ -300,6 +300,6 @@ class Design:
 
     def run(self):
         """Solve this design's analyses and return its Results."""
-        from .runner import run_design  # the one place the model hands itself on
+        from netgen.analyses import run_design  # the one place the model hands itself on
 
         return run_design(self)

@@ -9,8 +9,8 @@ import tempfile
 from dataclasses import dataclass
 from pathlib import Path
 
-from ..errors import NetgenError
-from .raw import Plot, RawError, read_raw
+from netgen.model.errors import NetgenError
+from netgen.spice.raw import Plot, RawError, read_raw
 
 DEFAULT_SIMULATOR = "ngspice"
 TIMEOUT = 600.0  # seconds; a netlist of our size takes well under one

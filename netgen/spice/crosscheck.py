@@ -9,14 +9,14 @@ from typing import Callable
 
 import numpy as np
 
-from ..assemble import System, assemble
-from ..design import Design, Link, Modes, Signal, Thermoelectric
-from ..results import Results, SignalEval, signal_texts
-from .grid import Onto, cuts, near, spread
-from .inexact import Jump, inputs, jumps, notes
-from .netlist import Names, netlist
-from .raw import Plot, find_plot
-from .runner import DEFAULT_SIMULATOR, SimulatorError, simulate
+from netgen.solve.assembly import System, assemble
+from netgen.model.design import Design, Link, Modes, Signal, Thermoelectric
+from netgen.checks.results import Results, SignalEval, signal_texts
+from netgen.spice.resample import Onto, cuts, near, spread
+from netgen.spice.approximations import Jump, inputs, jumps, notes
+from netgen.spice.netlist import Names, netlist
+from netgen.spice.raw import Plot, find_plot
+from netgen.spice.simulator import DEFAULT_SIMULATOR, SimulatorError, simulate
 
 DEFAULT_RTOL = 1e-3
 # Around a jump the netlist's edge differs from the ideal jump; in a part of the circuit about
@@ -106,7 +106,7 @@ class Report:
         return list(dict.fromkeys(r.signal for r in self.rows if not r.passed))
 
     def table(self) -> str:
-        from .table import render
+        from netgen.spice.crosscheck_table import render
 
         return render(self)
 

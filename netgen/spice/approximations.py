@@ -4,13 +4,13 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
-from ..design import CurrentSource, Design, Fixed, Heat, Switch, VoltageSource
-from ..expr import Shape, Wave
-from ..results import signal_texts
-from .netlist import Names
+from netgen.model.design import CurrentSource, Design, Fixed, Heat, Switch, VoltageSource
+from netgen.model.expr import Shape, Wave
+from netgen.checks.results import signal_texts
+from netgen.spice.netlist import Names
 
 if TYPE_CHECKING:
-    from .compare import Report
+    from netgen.spice.crosscheck import Report
 
 
 @dataclass

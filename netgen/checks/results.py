@@ -5,12 +5,12 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .assemble import System
-from .design import (
+from netgen.solve.assembly import System
+from netgen.model.design import (
     ELECTRICAL, THERMAL, Capacitor, CurrentSource, Design, Expectation, Fixed, Heat, Inductor,
     Link, Resistor, Signal, Switch, Thermoelectric, VoltageSource,
 )
-from .expr import SignalRef, evaluate
+from netgen.model.expr import SignalRef, evaluate
 
 _trapz = getattr(np, "trapezoid", None) or np.trapz
 

@@ -3,15 +3,15 @@ from __future__ import annotations
 
 import numpy as np
 
-from .analysis.modes import forecast, modes
-from .analysis.steady import solve_dc
-from .analysis.transient import integrate
-from .assemble import assemble
-from .design import Design, Modes, Thermoelectric
-from .merit import cautions, figures
-from .errors import NetgenError
-from .audits import energy_audit, entropy_audit, needed_signals
-from .results import Check, Results, SignalEval, evaluate_expectation, refs, signal_texts
+from netgen.solve.modes import forecast, modes
+from netgen.solve.steady import solve_dc
+from netgen.solve.transient import integrate
+from netgen.solve.assembly import assemble
+from netgen.model.design import Design, Modes, Thermoelectric
+from netgen.checks.merit import cautions, figures
+from netgen.model.errors import NetgenError
+from netgen.checks.audits import energy_audit, entropy_audit, needed_signals
+from netgen.checks.results import Check, Results, SignalEval, evaluate_expectation, refs, signal_texts
 
 
 def run_design(d: Design, progress=None) -> Results:

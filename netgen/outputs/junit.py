@@ -4,9 +4,9 @@ from __future__ import annotations
 import xml.etree.ElementTree as ET
 from pathlib import Path
 
-from . import __version__
-from .report import check_text
-from .verify import Outcome
+from netgen import __version__
+from netgen.outputs.report import check_text
+from netgen.regression.verify import Outcome
 
 
 def _case(suite: ET.Element, classname: str, name: str, seconds: float = 0.0) -> ET.Element:

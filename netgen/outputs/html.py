@@ -7,10 +7,10 @@ import html
 import math
 from pathlib import Path
 
-from . import __version__
-from . import plots
-from .report import _value, fmt
-from .verify import Outcome
+from netgen import __version__
+from netgen.outputs import plots
+from netgen.outputs.report import _value, fmt
+from netgen.regression.verify import Outcome
 
 STYLE = """
 body { font: 15px/1.45 system-ui, -apple-system, "Segoe UI", Roboto, sans-serif; color: #222;

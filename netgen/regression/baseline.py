@@ -8,10 +8,10 @@ from pathlib import Path
 
 import numpy as np
 
-from . import __version__
-from .compare import Tolerance, default_tolerance, unit_of
-from .errors import NetgenError
-from .results import Results
+from netgen import __version__
+from netgen.regression.diff import Tolerance, default_tolerance, unit_of
+from netgen.model.errors import NetgenError
+from netgen.checks.results import Results
 
 FORMAT = "netgen baseline 1"
 DEFAULT_DIR = "baselines"  # beside the design: examples/baselines/coil_swing.json

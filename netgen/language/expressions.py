@@ -9,9 +9,9 @@ from fractions import Fraction
 
 from lark import Token, Tree
 
-from .. import units as U
-from ..errors import NetgenError
-from ..expr import Binary, Const, Expr, Func, Shape, SignalRef, Time, Unary, Var, evaluate
+from netgen.model import units as U
+from netgen.model.errors import NetgenError
+from netgen.model.expr import Binary, Const, Expr, Func, Shape, SignalRef, Time, Unary, Var, evaluate
 
 _NUM = re.compile(r"^((?:[0-9]+(?:\.[0-9]+)?|\.[0-9]+)(?:[eE][+-]?[0-9]+)?)[ \t]*(.*)$")
 

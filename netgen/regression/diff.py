@@ -4,7 +4,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import numpy as np
-from .design import signal_unit
+from netgen.model.design import signal_unit
 
 DEFAULT_RTOL = 1e-3  # of the signal's range in the baseline
 # Absolute floors by kind: a few mK for temperatures (they sit near 300 K, so a share of their

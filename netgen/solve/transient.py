@@ -18,9 +18,9 @@ import numpy as np
 import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
-from ..assemble import System
-from ..errors import SolveError
-from .steady import ORDERING
+from netgen.solve.assembly import System
+from netgen.model.errors import SolveError
+from netgen.solve.steady import ORDERING
 
 GAMMA = 2.0 - math.sqrt(2.0)
 D = GAMMA / 2.0  # = (1 − γ)/(2 − γ)

@@ -5,11 +5,11 @@ from collections import Counter
 
 import networkx as nx
 
-from .design import (
+from netgen.model.design import (
     ELECTRICAL, THERMAL, Capacitor, CurrentSource, Design, Fixed, Heat, Inductor, Link, Resistor,
     Switch, Thermoelectric, TwoTerminal, VoltageSource,
 )
-from .errors import NetgenError, NetgenErrors
+from netgen.model.errors import NetgenError, NetgenErrors
 
 THERMAL_REF = "<absolute zero>"
 
@@ -76,7 +76,7 @@ def check_design(d: Design) -> None:
     """Structural checks before any solve. Raises NetgenError naming nodes and elements."""
     errors: list[NetgenError] = []
     if not d.nodes:
-        from .design import Loc
+        from netgen.model.design import Loc
 
         raise NetgenError("the design has no nodes", Loc(d.file, 1, 1), "add masses, links, resistors ...")
     fixed_nodes = {e.node for e in d.elements if isinstance(e, Fixed)}

@@ -7,7 +7,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import scipy.linalg
 
-from ..assemble import System
+from netgen.solve.assembly import System
 
 DENSE_LIMIT = 3000  # unknowns; beyond this the dense eigenproblem is too costly here
 

@@ -13,9 +13,9 @@ from pathlib import Path
 
 import numpy as np
 
-from . import __version__
-from .design import ELECTRICAL, THERMAL, Design, Thermoelectric, signal_unit
-from .results import Results
+from netgen import __version__
+from netgen.model.design import ELECTRICAL, THERMAL, Design, Thermoelectric, signal_unit
+from netgen.checks.results import Results
 
 ZERO_C = 273.15
 
@@ -73,9 +73,9 @@ def describe(d: Design) -> str:
 
 def _start_temperatures(d: Design) -> dict[str, float]:
     """Temperatures of the transient's start (or the steady state); {} when that cannot be solved."""
-    from .analysis.steady import solve_dc
-    from .assemble import assemble
-    from .errors import NetgenError
+    from netgen.solve.steady import solve_dc
+    from netgen.solve.assembly import assemble
+    from netgen.model.errors import NetgenError
 
     try:
         sys_ = assemble(d)
@@ -251,7 +251,7 @@ def write_matrices(d: Design, out_dir: Path) -> list[Path]:
     """G, C (constant parts, switches open at t = 0 state), b(0) and the unknowns' names."""
     import scipy.io
 
-    from .assemble import assemble
+    from netgen.solve.assembly import assemble
 
     sys_ = assemble(d)
     out_dir.mkdir(parents=True, exist_ok=True)

@@ -11,7 +11,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .design import (
+from netgen.model.design import (
     Capacitor, CurrentSource, Design, Fixed, Heat, Inductor, Resistor, Switch, VoltageSource,
 )
 

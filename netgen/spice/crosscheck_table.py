@@ -4,8 +4,8 @@ from __future__ import annotations
 import math
 import textwrap
 
-from .compare import Report, Row
-from ..design import signal_unit
+from netgen.spice.crosscheck import Report, Row
+from netgen.model.design import signal_unit
 
 PREFIXES = [(1e9, "G"), (1e6, "M"), (1e3, "k"), (1.0, ""), (1e-3, "m"), (1e-6, "u"), (1e-9, "n"),
             (1e-12, "p"), (1e-15, "f")]

@@ -7,8 +7,8 @@ import numpy as np
 import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
-from ..assemble import TEMP, System
-from ..errors import SolveError
+from netgen.solve.assembly import TEMP, System
+from netgen.model.errors import SolveError
 
 MAX_ITER = 60
 # Fill-reducing column order for SuperLU. Minimum degree on the structure of A + Aᵀ suits MNA

@@ -6,12 +6,12 @@ import time
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from .baseline import Baseline, baseline_path, dumps, from_results, read
-from .compare import Comparison, Tolerance, compare, default_tolerance
-from .errors import NetgenError
-from .report import check_text, write_atomic
-from .results import Check, Results
-from .design import signal_unit
+from netgen.regression.baseline import Baseline, baseline_path, dumps, from_results, read
+from netgen.regression.diff import Comparison, Tolerance, compare, default_tolerance
+from netgen.model.errors import NetgenError
+from netgen.outputs.report import check_text, write_atomic
+from netgen.checks.results import Check, Results
+from netgen.model.design import signal_unit
 
 
 @dataclass
@@ -137,7 +137,7 @@ def verify_file(path: Path, settings: dict[str, str], directory: Path | None = N
                 rtol: float | None = None, per_signal: dict[str, float] | None = None,
                 update: bool = False) -> Outcome:
     """Run one design, evaluate its checks, compare with (or, with `update`, write) its baseline."""
-    from .language import load
+    from netgen.language import load
 
     o = Outcome(Path(path), dict(settings))
     start = time.monotonic()

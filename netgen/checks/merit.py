@@ -9,7 +9,7 @@ import math
 
 import numpy as np
 
-from .design import Design, Thermoelectric
+from netgen.model.design import Design, Thermoelectric
 
 FREEZING = 273.15
 

@@ -18,11 +18,11 @@ from dataclasses import dataclass, field
 import numpy as np
 import scipy.sparse as sp
 
-from .design import (
+from netgen.model.design import (
     ELECTRICAL, THERMAL, Capacitor, CurrentSource, Design, Fixed, Heat, Inductor, Link, Resistor,
     Switch, Thermoelectric, VoltageSource,
 )
-from .expr import Binary, Const, Wave, evaluate
+from netgen.model.expr import Binary, Const, Wave, evaluate
 
 # Kinds of unknowns, for error weights and reporting.
 TEMP, VOLT, AMP, WATT = "T", "V", "I", "Q"
@@ -225,7 +225,7 @@ class System:
             return out
         vals = np.array([w.at(t, left) for w in self._distinct])
         if not np.all(np.isfinite(vals)):
-            from .errors import SolveError
+            from netgen.model.errors import SolveError
 
             bad = self._w_rows[self._w_which == int(np.flatnonzero(~np.isfinite(vals))[0])][0]
             raise SolveError(f"the source value on {self.names[bad]} is not a finite number at t = {t:.6g} s",

@@ -8,11 +8,11 @@ from pathlib import Path
 
 import numpy as np
 
-from .errors import NetgenError
-from .expr import SignalRef, evaluate
-from .report import ZERO_C, write_atomic
-from .results import Results
-from .design import signal_unit
+from netgen.model.errors import NetgenError
+from netgen.model.expr import SignalRef, evaluate
+from netgen.outputs.report import ZERO_C, write_atomic
+from netgen.checks.results import Results
+from netgen.model.design import signal_unit
 
 CURVE = "#1f4e9c"  # this run
 BASELINE = "#8c8c8c"  # the stored baseline, dashed

@@ -1,0 +1,1 @@
+"""Element kinds, one module each, and the registry that lists them."""
