@@ -8,6 +8,9 @@ __version__ = "0.1.0"
 from netgen.model.design import Design
 from netgen.model.errors import NetgenError
 from netgen.checks.results import Results
+from netgen.analyses import run
+
+Design.runner = staticmethod(run)
 
 
 def load(path_or_text, overrides: dict[str, str] | None = None) -> Design:
@@ -20,4 +23,4 @@ def load(path_or_text, overrides: dict[str, str] | None = None) -> Design:
     return load_text(str(path_or_text), "<text>", overrides)
 
 
-__all__ = ["load", "Design", "Results", "NetgenError", "__version__"]
+__all__ = ["load", "run", "Design", "Results", "NetgenError", "__version__"]

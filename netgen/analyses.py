@@ -1,70 +1,123 @@
-"""Runs a Design's analyses in order: assemble, steady, transient, expectations → Results."""
+"""Analyses behind one interface, and the run that walks their table: Design → Results.
+
+Each analysis says when a design wants it, solves, and leaves its states (for signals that
+expectations and audits read later), its part of the Results and its statistics. The run
+assembles once, walks `ANALYSES` in order, then evaluates expectations, figures of merit,
+cautions and audits from what the analyses left. A new analysis is one class and one entry.
+"""
 from __future__ import annotations
+
+from dataclasses import dataclass, field
 
 import numpy as np
 
+from netgen.checks.audits import energy_audit, entropy_audit, needed_signals
+from netgen.checks.merit import cautions, figures
+from netgen.checks.results import Check, Results, evaluate_expectation, refs
+from netgen.elements import Thermoelectric
+from netgen.model.design import Design, Modes
+from netgen.model.errors import NetgenError
+from netgen.solve.assembly import System, assemble
 from netgen.solve.modes import forecast, modes
+from netgen.solve.signals import SignalEval, signal_texts
 from netgen.solve.steady import solve_dc
 from netgen.solve.transient import integrate
-from netgen.solve.assembly import assemble
-from netgen.model.design import Design, Modes, Thermoelectric
-from netgen.checks.merit import cautions, figures
-from netgen.model.errors import NetgenError
-from netgen.checks.audits import energy_audit, entropy_audit, needed_signals
-from netgen.checks.results import Check, Results, SignalEval, evaluate_expectation, refs, signal_texts
 
 
-def run_design(d: Design, progress=None) -> Results:
-    """Solve every analysis of `d`. With none declared, the steady state is solved."""
-    sys = assemble(d)
-    sig = SignalEval(d, sys)
-    wanted = signal_texts(d)
-    extra = [r.text for e in d.expectations for r in refs(e.expr)]
-    res = Results(design=d, signals=wanted)
-    states: dict[str, tuple] = {}
-    want_steady = d.steady is not None or d.transient is None or any(e.agg == "steady" for e in d.expectations)
-    if want_steady:
+@dataclass
+class Run:
+    """What the analyses share while a design runs: its system, its signal evaluator, the
+    signals to report, the Results being filled and, by analysis, the solved states
+    (X, Xdot, t, left) that signals are computed from."""
+
+    design: Design
+    sys: System
+    sig: SignalEval
+    wanted: list[str]
+    res: Results
+    progress: object = None
+    states: dict[str, tuple] = field(default_factory=dict)
+
+    def signal(self, analysis: str, text: str):
+        res = self.res
+        if analysis == "steady" and res.steady is not None and text in res.steady:
+            return res.steady[text]
+        return self.sig(text, *self.states[analysis])
+
+
+class SteadyAnalysis:
+    """The steady state at t = 0: asked for by `steady`, by a design with no analysis at all, and by
+    `expect steady ...`."""
+
+    name = "steady"
+
+    def wanted(self, d: Design) -> bool:
+        return d.steady is not None or d.transient is None or any(e.agg == "steady" for e in d.expectations)
+
+    def solve(self, r: Run) -> None:
+        d = r.design
         try:
-            xs = solve_dc(sys, 0.0)
+            xs = solve_dc(r.sys, 0.0)
         except NetgenError as e:
             e.loc = e.loc or (d.steady.loc if d.steady else None)
             raise
         X = xs[None, :]
-        states["steady"] = (X, np.zeros_like(X), np.array([0.0]), False)
-        res.steady = {s: float(sig(s, X, np.zeros_like(X), np.array([0.0]))[0]) for s in wanted}
-    if d.transient is not None:
-        tr = d.transient
+        r.states["steady"] = (X, np.zeros_like(X), np.array([0.0]), False)
+        r.res.steady = {s: float(r.sig(s, X, np.zeros_like(X), np.array([0.0]))[0]) for s in r.wanted}
+
+
+class TransientAnalysis:
+    """`transient until T`: TR-BDF2 from the consistent start with `start` values held."""
+
+    name = "transient"
+
+    def wanted(self, d: Design) -> bool:
+        return d.transient is not None
+
+    def solve(self, r: Run) -> None:
+        tr, sys, sig, res = r.design.transient, r.sys, r.sig, r.res
         try:
             x0 = solve_dc(sys, 0.0, impose=True)
-            wf = integrate(sys, x0, tr.until, tr.step, tr.tolerance, progress)
+            wf = integrate(sys, x0, tr.until, tr.step, tr.tolerance, r.progress)
         except NetgenError as e:
             e.loc = e.loc or tr.loc
             part = getattr(e, "partial", None)
             if part is not None and len(part.time) > 1:
                 # Keep what was computed: the caller may write it, marked as partial.
                 res.time = part.time
-                res.waveforms = {s: sig(s, part.x, part.xdot, part.time, part.left_rows) for s in wanted}
+                res.waveforms = {s: sig(s, part.x, part.xdot, part.time, part.left_rows) for s in r.wanted}
                 res.stats = {"steps": part.steps, "rejected": part.rejected, "partial": True,
                              "stopped": e.message}
                 e.results = res
             raise
-        states["transient"] = (wf.x, wf.xdot, wf.time, wf.left_rows)
+        extra = [ref.text for e in r.design.expectations for ref in refs(e.expr)]
+        r.states["transient"] = (wf.x, wf.xdot, wf.time, wf.left_rows)
         res.time = wf.time
-        res.waveforms = {s: sig(s, wf.x, wf.xdot, wf.time, wf.left_rows) for s in dict.fromkeys(wanted + extra)}
+        res.waveforms = {s: sig(s, wf.x, wf.xdot, wf.time, wf.left_rows) for s in dict.fromkeys(r.wanted + extra)}
         res.initial = {name: float(v) for name, v in zip(sys.names, x0)}
         res.stats = {"steps": wf.steps, "rejected": wf.rejected, "factorizations": wf.factorizations}
 
-    want_modes = next((a for a in d.analyses if isinstance(a, Modes)), None)
-    if want_modes is not None:
-        # The linearisation point: the transient's start when there is one, else the steady state.
+
+class ModesAnalysis:
+    """`modes`: the linearised system's modes at the transient's start (or the steady state),
+    and, when some ring, a linear forecast of each ringing temperature."""
+
+    name = "modes"
+
+    def wanted(self, d: Design) -> bool:
+        return any(isinstance(a, Modes) for a in d.analyses)
+
+    def solve(self, r: Run) -> None:
+        d, sys, res = r.design, r.sys, r.res
+        loc = next(a for a in d.analyses if isinstance(a, Modes)).loc
         if d.transient is not None:
             x_lin = np.array([res.initial[n] for n in sys.names])
         else:
-            x_lin = states["steady"][0][0] if "steady" in states else solve_dc(sys, 0.0, impose=True)
+            x_lin = r.states["steady"][0][0] if "steady" in r.states else solve_dc(sys, 0.0, impose=True)
         try:
             res.modes = modes(sys, x_lin)
         except ValueError as e:
-            raise NetgenError(str(e), want_modes.loc, "drop `modes` for a mesh this large") from None
+            raise NetgenError(str(e), loc, "drop `modes` for a mesh this large") from None
         if any(m.oscillatory for m in res.modes):
             # Where it rings: the steady state with the sources as they stand at the end.
             t_last = d.transient.until if d.transient is not None else 0.0
@@ -77,26 +130,28 @@ def run_design(d: Design, progress=None) -> Results:
                 span = t_last if t_last > 0 else 6 * slowest
                 res.forecast = forecast(sys, x_lin, x_final, min(span, 12 * slowest))
 
-    def signal_of(analysis, text):
-        if analysis == "steady" and res.steady is not None and text in res.steady:
-            return res.steady[text]
-        return sig(text, *states[analysis])
 
-    res.checks = [evaluate_expectation(e, res, signal_of) for e in d.expectations]
-    if d.of_kind(Thermoelectric):
-        where = "transient" if "transient" in states else "steady"  # the driven state, when there is one
+# In the order they run: modes linearise about what the others found.
+ANALYSES = (SteadyAnalysis(), TransientAnalysis(), ModesAnalysis())
 
-        def final(text):
-            v = signal_of(where, text)
-            return float(np.atleast_1d(v)[-1])
 
-        def every(text):
-            return np.concatenate([np.atleast_1d(signal_of(a, text)) for a in states])
-
-        res.figures = figures(d, final)
+def run(d: Design, progress=None) -> Results:
+    """Solve every analysis `d` asks for (with none declared, the steady state), then evaluate
+    its expectations, figures of merit, cautions and audits."""
+    sys = assemble(d)
+    wanted = signal_texts(d)
+    r = Run(d, sys, SignalEval(d, sys), wanted, Results(design=d, signals=wanted), progress)
+    for analysis in ANALYSES:
+        if analysis.wanted(d):
+            analysis.solve(r)
+    res = r.res
+    res.checks = [evaluate_expectation(e, res, r.signal) for e in d.expectations]
+    if any(isinstance(e, Thermoelectric) for e in d.elements):
+        where = "transient" if "transient" in r.states else "steady"  # the driven state, when there is one
+        res.figures = figures(d, lambda text: float(np.atleast_1d(r.signal(where, text))[-1]))
         res.figures_at = "steady state" if where == "steady" else "end of the transient"
-        res.cautions = cautions(d, every)
-    res.checks += [_audit(d, a, states.get("transient"), sig) for a in d.audits]
+        res.cautions = cautions(d, lambda text: np.concatenate([np.atleast_1d(r.signal(a, text)) for a in r.states]))
+    res.checks += [_audit(d, a, r.states.get("transient"), r.sig) for a in d.audits]
     return res
 
 
@@ -110,7 +165,7 @@ def _audit(d: Design, a, transient, sig) -> Check:
     # when the state jumps there), so one evaluation serves as both limits.
     right = left = {s: sig(s, X, Xd, t, left_rows) for s in names}
     if a.kind == "energy":
-        r = energy_audit(d, t, right, left, a.within)
-        return Check(text, 100 * r.measured, 100 * r.limit, "%", r.passed, a.loc, r.detail)
-    r = entropy_audit(d, t, right, left)
-    return Check(text, r.measured, r.limit, "1", r.passed, a.loc, r.detail)
+        result = energy_audit(d, t, right, left, a.within)
+        return Check(text, 100 * result.measured, 100 * result.limit, "%", result.passed, a.loc, result.detail)
+    result = entropy_audit(d, t, right, left)
+    return Check(text, result.measured, result.limit, "1", result.passed, a.loc, result.detail)

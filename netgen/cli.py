@@ -142,10 +142,10 @@ def cmd_verify(args) -> int:
 
 
 def _run_with(d, progress):
-    from netgen.analyses import run_design
+    from netgen.analyses import run
 
     try:
-        return run_design(d, progress)
+        return run(d, progress)
     finally:
         progress.done()
 

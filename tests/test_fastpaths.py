@@ -105,11 +105,17 @@ def test_pinned_start_values_agree_with_bordered_ones(text):
     np.testing.assert_allclose(pinned, bordered, rtol=1e-9, atol=1e-9)
 
 
-def _f_by_module(sys, x):
+def _material_modules(d, sys):
+    """(module, a, b, k) of every module whose S, R, K are a material's expressions of T."""
+    return [(e, sys.node_index[e.a], sys.node_index[e.b], sys.branch_index[e.name])
+            for e in d.elements if getattr(e, "props", None) is not None]
+
+
+def _f_by_module(d, sys, x):
     """f of the temperature-dependent modules, one module at a time (LANGUAGE.md's equations)."""
     out = np.zeros(sys.n + 1)
     xe = np.append(x, 0.0)
-    for e, a, b, k in sys.tev:
+    for e, a, b, k in _material_modules(d, sys):
         Ta, Tb, I = xe[a], xe[b], xe[k]
         S, R, K = e.values_at(0.5 * (Ta + Tb))
         out[k] += -I * R - S * (Tb - Ta)
@@ -119,24 +125,17 @@ def _f_by_module(sys, x):
 
 
 def test_grouped_materials_match_module_by_module_evaluation():
-    sys = assemble(netgen.load(MATERIALS))
-    assert len(sys.tev) == 3 and len(sys.tev_groups) == 2  # m1, m2 share `warm`; m3 is `cool`
+    d = netgen.load(MATERIALS)
+    sys = assemble(d)
+    # m1 and m2 share `warm`, m3 is `cool`: two blocks of material modules, compiled once each.
+    material_blocks = [b for b in sys.blocks if "fS" in b.params]
+    assert len(_material_modules(d, sys)) == 3 and [b.size for b in material_blocks] == [2, 1]
     rng = np.random.default_rng(1)
     x = solve_dc(sys, 0.0, impose=True) + rng.normal(0, 0.5, sys.n)
-    only_tev = sys.f(x) - _f_lumped_and_resistors(sys, x)
-    np.testing.assert_allclose(only_tev, _f_by_module(sys, x), rtol=1e-12, atol=1e-12)
-
-
-def _f_lumped_and_resistors(sys, x):
-    """f without the temperature-dependent modules."""
-    groups, tev = sys.tev_groups, sys.tev
-    sys.tev_groups, sys.tev = [], []
-    try:
-        sys.__post_init__()
-        return sys.f(x)
-    finally:
-        sys.tev_groups, sys.tev = groups, tev
-        sys.__post_init__()
+    xe = np.append(x, 0.0)
+    only_materials = sum(np.bincount(b.f_rows, b.evaluate(xe, False)[0], minlength=sys.n + 1)[: sys.n]
+                         for b in material_blocks)
+    np.testing.assert_allclose(only_materials, _f_by_module(d, sys, x), rtol=1e-12, atol=1e-12)
 
 
 def test_assembled_jacobian_matches_finite_differences():

@@ -66,6 +66,15 @@ def parse(text: str) -> tuple[str, list[str], list[list[str]]]:
     return lines[0], comments, cards
 
 
+def bvalue(expr: str, values: dict[str, float]) -> float:
+    """A B-source expression (SPICE3 syntax: + - * / abs, V(node), I(source)) at the given values,
+    read by Python after putting the numbers in: independent of how netgen prints it."""
+    body = expr.split("=", 1)[1]
+    body = re.sub(r"\b([VI])\(([A-Za-z0-9_]+)\)", lambda m: repr(values[f"{m.group(1)}({m.group(2)})"]), body)
+    assert re.fullmatch(r"[-+*/().0-9eE ,abs]*", body), body
+    return eval(body, {"abs": abs})  # noqa: S307 - digits, operators and abs only (checked above)
+
+
 def elements(text: str) -> dict[str, list[str]]:
     return {c[0]: c for c in parse(text)[2] if not c[0].startswith(".")}
 
@@ -121,9 +130,13 @@ def test_element_lines(all_kinds):
     assert el["r_r1_2"][1:] == ["e_a", "0", "1000.0"]  # R1 collides with r1 in SPICE
     assert el["c_c1"][1:4] == ["e_c", "0", "1e-06"]
     assert el["l_l1"][1:4] == ["e_b", "0", "0.001"]
-    assert el["bres_rh"][1:] == ["e_b", "e_c", "I=(V(e_b)-V(e_c))/(2.0*(1+0.004*(V(t_die_2)-300.0)))"]
-    assert el["bjoule_rh"][1:] == ["0", "t_die",
-                                   "I=(V(e_b)-V(e_c))*(V(e_b)-V(e_c))/(2.0*(1+0.004*(V(t_die_2)-300.0)))"]
+    assert el["bres_rh"][1:3] == ["e_b", "e_c"] and el["bjoule_rh"][1:3] == ["0", "t_die"]
+    # R = R0·(1 + alpha·(T − ref)) (LANGUAGE.md, tempco), at a few states.
+    for vb, vc, T in ((1.0, 0.25, 300.0), (3.0, -1.0, 350.0), (-2.0, 0.5, 260.0)):
+        at = {"V(e_b)": vb, "V(e_c)": vc, "V(t_die_2)": T}
+        R = 2.0 * (1 + 0.004 * (T - 300.0))
+        assert bvalue(el["bres_rh"][3], at) == pytest.approx((vb - vc) / R, rel=1e-12)
+        assert bvalue(el["bjoule_rh"][3], at) == pytest.approx((vb - vc) ** 2 / R, rel=1e-12)
     # The switch: S element, its 0/1 control source and a model with the two resistances.
     assert el["s_sw"][1:] == ["e_c", "0", "x_sw_ctl", "0", "msw_sw"]
     assert el["vsw_sw"][1:4] == ["x_sw_ctl", "0", "DC"]
@@ -136,13 +149,17 @@ def test_thermoelectric_lines(all_kinds):
     Q_B = S·T_B·I + ½I²R + K·ΔT given to B."""
     _, text = all_kinds
     el = elements(text)
-    assert el["bte_tec"][1:] == ["e_c", "x_tec_m", "V=0.052000000000000005*(V(t_room)-V(t_die))"]
-    assert el["rte_tec"][1:] == ["x_tec_m", "x_tec_m2", "1.8"]
-    assert el["vte_tec"][1:] == ["x_tec_m2", "0", "DC", "0"]
-    assert el["rtek_tec"][1:] == ["t_die", "t_room", repr(1 / 0.6)]
-    i = "I(vte_tec)"
-    assert el["bteqa_tec"][1:] == ["t_die", "0", f"I=0.052000000000000005*V(t_die)*{i}-0.5*1.8*{i}*{i}"]
-    assert el["bteqb_tec"][1:] == ["0", "t_room", f"I=0.052000000000000005*V(t_room)*{i}+0.5*1.8*{i}*{i}"]
+    # The sense source carries the module current from pin p (e_c) to pin n (ground).
+    assert el["bte_tec"][1:3] == ["e_c", "x_tec_m"] and el["vte_tec"][1:] == ["x_tec_m", "0", "DC", "0"]
+    assert el["bteqa_tec"][1:3] == ["t_die", "0"] and el["bteqb_tec"][1:3] == ["0", "t_room"]
+    S, R, K = 0.052, 1.8, 0.6
+    for Ta, Tb, I in ((297.0, 305.0, 1.5), (280.0, 310.0, -0.7), (300.0, 300.0, 0.0)):
+        at = {"V(t_die)": Ta, "V(t_room)": Tb, "I(vte_tec)": I}
+        assert bvalue(el["bte_tec"][3], at) == pytest.approx(I * R + S * (Tb - Ta), rel=1e-12, abs=1e-12)
+        assert bvalue(el["bteqa_tec"][3], at) == pytest.approx(S * Ta * I - 0.5 * I * I * R + K * (Ta - Tb),
+                                                              rel=1e-12, abs=1e-12)
+        assert bvalue(el["bteqb_tec"][3], at) == pytest.approx(S * Tb * I + 0.5 * I * I * R + K * (Ta - Tb),
+                                                              rel=1e-12, abs=1e-12)
     assert "^" not in text and "**" not in text
 
 
@@ -467,7 +484,17 @@ def test_ngspice_cooler_of_a_temperature_dependent_material(ngspice, tmp_path):
     """S, R and K are expressions of the mean side temperature (LANGUAGE.md, materials)."""
     d = netgen.load(MATERIAL)
     text = write_netlist(d)
-    assert "brte_tec" in elements(text) and "brtek_tec" in elements(text)
+    el = elements(text)
+    # The module's S, R, K follow the mean side temperature: 31 couples of two legs (LANGUAGE.md).
+    Ta, Tb, I = 290.0, 310.0, 1.2
+    Tm = 0.5 * (Ta + Tb)
+    S = 62 * 200e-6 * (1 + 0.002 * (Tm - 300))
+    R = 62 * 1e-5 * (1 + 0.004 * (Tm - 300)) * 1.2e-3 / 1e-6
+    K = 62 * 1.5 * (1 - 0.001 * (Tm - 300)) * 1e-6 / 1.2e-3
+    at = {"V(t_plate)": Ta, "V(t_hot)": Tb, "I(vte_tec)": I}
+    assert bvalue(el["bte_tec"][3], at) == pytest.approx(I * R + S * (Tb - Ta), rel=1e-12)
+    assert bvalue(el["bteqa_tec"][3], at) == pytest.approx(S * Ta * I - 0.5 * I * I * R + K * (Ta - Tb), rel=1e-12)
+    assert bvalue(el["bteqb_tec"][3], at) == pytest.approx(S * Tb * I + 0.5 * I * I * R + K * (Ta - Tb), rel=1e-12)
     compare(d, text, simulate(ngspice, text, tmp_path), kelvin=5e-4, rel=1e-4)
 
 

@@ -6,7 +6,7 @@ import pytest
 
 import netgen
 from netgen.model import units as U
-from netgen.model.design import Link
+from netgen.elements import Link
 
 MATERIAL = ("cell 5 mm  thickness 2 mm  density 2700 kg/m^3  specific heat 900 J/(kg*K)  "
             "conductivity 200 W/(m*K)")

@@ -11,9 +11,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from netgen.model.design import (
-    Capacitor, CurrentSource, Design, Fixed, Heat, Inductor, Resistor, Switch, VoltageSource,
-)
+from netgen.model.design import Design
 
 DEFAULT_ENERGY_TOL = 0.005  # LANGUAGE.md: `audit energy` default 0.5 %
 ENTROPY_TOL = 2e-3  # a negative production within this share of the entropy flows is integration error
@@ -29,19 +27,18 @@ class AuditResult:
     worst_time: float | None = None
 
 
+def _terms(d: Design, role: str) -> list:
+    return [term for e in d.elements for term in e.energy() if term.role == role]
+
+
 def energy_signals(d: Design) -> dict[str, list[str]]:
-    """The signals each energy term needs."""
-    supplied = [f"P({e.name})" for e in d.elements if isinstance(e, (VoltageSource, CurrentSource))]
-    supplied += [f"Q({e.name})" for e in d.elements if isinstance(e, (Heat, Fixed))]
-    lost = [f"P({e.name})" for e in d.elements
-            if (isinstance(e, Resistor) and e.heats is None) or isinstance(e, Switch)]
-    return {"supplied": supplied, "lost": lost}
+    """The signals each energy term needs (each element kind names its own terms)."""
+    return {role: [term.signal for term in _terms(d, role)] for role in ("supplied", "lost", "stored")}
 
 
 def entropy_signals(d: Design) -> list[str]:
     out = [f"T({n.name})" for n in d.nodes.values() if n.capacity is not None]
-    out += [f"Q({e.name})" for e in d.elements if isinstance(e, (Heat, Fixed))]
-    out += [f"T({e.node})" for e in d.elements if isinstance(e, (Heat, Fixed))]
+    out += [s for e in d.elements for pair in e.entropy() for s in pair]
     return list(dict.fromkeys(out))
 
 
@@ -54,24 +51,18 @@ def _step_integral(t, right, left):
 def energy_audit(d: Design, t: np.ndarray, right: dict, left: dict, tol: float | None = None) -> AuditResult:
     """First law: energy supplied = stored + dissipated, over the whole transient."""
     tol = DEFAULT_ENERGY_TOL if tol is None else tol
-    names = energy_signals(d)
-    supplied_terms = {}
-    for s in names["supplied"]:
-        sign = -1.0 if s.startswith("P(") else 1.0  # a source takes negative power when it delivers
-        supplied_terms[s] = sign * float(np.sum(_step_integral(t, right[s], left[s])))
-    lost_terms = {s: float(np.sum(_step_integral(t, right[s], left[s]))) for s in names["lost"]}
+    supplied_terms = {term.signal: term.sign * float(np.sum(_step_integral(t, right[term.signal], left[term.signal])))
+                      for term in _terms(d, "supplied")}
+    lost_terms = {term.signal: float(np.sum(_step_integral(t, right[term.signal], left[term.signal])))
+                  for term in _terms(d, "lost")}
     stored_terms = {}
     for n in d.nodes.values():
         if n.capacity is not None:
             T = right[f"T({n.name})"]
             stored_terms[f"T({n.name})"] = n.capacity * float(T[-1] - T[0])
-    for e in d.elements:
-        if isinstance(e, Capacitor):
-            v = right[f"V({e.a}, {e.b})"]
-            stored_terms[e.name] = 0.5 * e.capacitance * float(v[-1] ** 2 - v[0] ** 2)
-        elif isinstance(e, Inductor):
-            i = right[f"I({e.name})"]
-            stored_terms[e.name] = 0.5 * e.inductance * float(i[-1] ** 2 - i[0] ** 2)
+    for term in _terms(d, "stored"):
+        v = right[term.signal]
+        stored_terms[term.signal] = 0.5 * term.k * float(v[-1] ** 2 - v[0] ** 2)
     supplied = sum(supplied_terms.values())
     stored = sum(stored_terms.values())
     lost = sum(lost_terms.values())
@@ -101,13 +92,10 @@ def entropy_audit(d: Design, t: np.ndarray, right: dict, left: dict) -> AuditRes
             ds = n.capacity * np.log(T[1:] / T[:-1])
             produced += ds
             flows += np.abs(ds)
-    for e in d.elements:
-        if isinstance(e, (Heat, Fixed)):
-            q_r, q_l = right[f"Q({e.name})"], left[f"Q({e.name})"]
-            T_r, T_l = right[f"T({e.node})"], left[f"T({e.node})"]
-            s_in = _step_integral(t, q_r / T_r, q_l / T_l)
-            produced -= s_in
-            flows += np.abs(s_in)
+    for q, temp in (pair for e in d.elements for pair in e.entropy()):
+        s_in = _step_integral(t, right[q] / right[temp], left[q] / left[temp])
+        produced -= s_in
+        flows += np.abs(s_in)
     # A corner stored twice is a step of zero length: nothing is produced across it.
     keep = h > 0
     produced, flows, h, starts = produced[keep], flows[keep], h[keep], t[:-1][keep]
@@ -130,6 +118,4 @@ def needed_signals(d: Design) -> list[str]:
     sig = energy_signals(d)
     out = sig["supplied"] + sig["lost"] + entropy_signals(d)
     out += [f"T({n.name})" for n in d.nodes.values() if n.capacity is not None]
-    out += [f"V({e.a}, {e.b})" for e in d.elements if isinstance(e, Capacitor)]
-    out += [f"I({e.name})" for e in d.elements if isinstance(e, Inductor)]
-    return list(dict.fromkeys(out))
+    return list(dict.fromkeys(out + sig["stored"]))

@@ -9,7 +9,8 @@ import math
 
 import numpy as np
 
-from netgen.model.design import Design, Thermoelectric
+from netgen.model.design import Design
+from netgen.elements import Thermoelectric
 
 FREEZING = 273.15
 

@@ -9,10 +9,10 @@ from lark import Token, Tree
 from lark.exceptions import UnexpectedCharacters, UnexpectedEOF, UnexpectedInput, UnexpectedToken
 
 from netgen.model import units as U
+from netgen.elements import KINDS, READERS, Fixed
 from netgen.model.design import (
-    ELECTRICAL, THERMAL, Audit, Capacitor, CurrentSource, Design, Expectation, Fixed, Heat,
-    Inductor, Link, Loc, Node, Resistor, Signal, Steady, Switch, Tempco, Thermoelectric,
-    Transient, VoltageSource, Modes, Material, BaselineTolerance, signal_unit,
+    ELECTRICAL, THERMAL, Audit, BaselineTolerance, Design, Expectation, Loc, Material, Modes, Node, Signal, Steady,
+    Transient, signal_unit,
 )
 from netgen.model.errors import NetgenError, NetgenErrors
 from netgen.model.expr import Const, Wave, evaluate
@@ -33,10 +33,8 @@ _TOKEN_WORDS = {
     "STRING": 'a quoted title', "$END": "end of file",
 }
 
-STATEMENTS = (
-    "design let mass fixed link heat ground resistor capacitor inductor source switch "
-    "thermoelectric material steady transient modes record expect audit part use include plate baseline"
-).split()
+STATEMENTS = ["design", "let", "mass", *dict.fromkeys(k.statement for k in KINDS), "ground", "material", "steady",
+              "transient", "modes", "record", "expect", "audit", "part", "use", "include", "plate", "baseline"]
 
 
 def load(path, overrides: dict[str, str] | None = None) -> Design:
@@ -145,7 +143,11 @@ class Elaborator(PartsMixin):
         if self.prefix and stmt.data in TOP_LEVEL_ONLY:
             word = stmt.data.split("_")[0]
             raise self.err(stmt, f"`{word}` is not allowed inside a part", "write it in the design that uses the part")
-        getattr(self, "st_" + stmt.data)(stmt)
+        read = READERS.get(stmt.data)
+        if read is not None:  # an element kind reads its own statement
+            read(self, stmt)
+        else:
+            getattr(self, "st_" + stmt.data)(stmt)
 
     def qualify(self, name: str) -> str:
         """A name as written inside a part → its name in the design."""
@@ -340,162 +342,16 @@ class Elaborator(PartsMixin):
         if "start" in a:
             n.start = self.const(a["start"].children[0], U.TEMPERATURE, "a start temperature", positive=True)
 
-    def st_fixed(self, t):
-        name_tok, value = t.children
-        name = self.node(name_tok, THERMAL)
-        wave, _ = self.wave(value, U.TEMPERATURE, "a reservoir temperature")
-        if any(isinstance(e, Fixed) and e.node == name for e in self.design.elements):
-            raise self.err(name_tok, f"node `{name}` is already fixed")
-        self.design.elements.append(Fixed(name, self.loc(name_tok), node=name, temperature=wave))
-
-    def st_link(self, t):
-        name_tok, a, b, value = t.children
+    def two_pins(self, t):
+        """Name and two electrical nodes of `KIND NAME A B ...`, with the name's location."""
+        name_tok, a, b = t.children[:3]
         name = self.element_name(name_tok)
-        na, nb = self.node(a, THERMAL), self.node(b, THERMAL)
-        typed = self.typed(value)
-        self.need_dim(value, typed, (U.THERMAL_CONDUCTANCE, U.THERMAL_RESISTANCE), "a link")
-        v = self.const(value, typed.dim, "a link value", positive=True)
-        g = v if typed.dim == U.THERMAL_CONDUCTANCE else 1.0 / v
-        self.design.elements.append(Link(name, self.loc(name_tok), a=na, b=nb, conductance=g))
-
-    def st_heat(self, t):
-        name_tok, node_tok, value = t.children
-        name = self.element_name(name_tok)
-        node = self.node(node_tok, THERMAL)
-        wave, _ = self.wave(value, U.POWER, "a heat input")
-        self.design.elements.append(Heat(name, self.loc(name_tok), node=node, power=wave))
+        return name, self.node(a, ELECTRICAL), self.node(b, ELECTRICAL), self.loc(name_tok)
 
     def st_ground(self, t):
         tok = t.children[0]
         name = self.node(tok, ELECTRICAL)
         self.design.grounds.setdefault(name, self.loc(tok))
-
-    def _two(self, t):
-        name_tok, a, b = t.children[:3]
-        name = self.element_name(name_tok)
-        return name, self.node(a, ELECTRICAL), self.node(b, ELECTRICAL), self.loc(name_tok)
-
-    def st_resistor(self, t):
-        name, a, b, loc = self._two(t)
-        r = self.const(t.children[3], U.RESISTANCE, "a resistance", positive=True)
-        at = self.attrs(t.children[4], ("heats", "tempco"), "resistor")
-        heats = self.node(at["heats"].children[0], THERMAL) if "heats" in at else None
-        tc = None
-        if "tempco" in at:
-            alpha_t, node_tok, ref_t = at["tempco"].children
-            alpha = self.const(alpha_t, U.PER_KELVIN, "a temperature coefficient")
-            tc = Tempco(alpha, self.node(node_tok, THERMAL),
-                        self.const(ref_t, U.TEMPERATURE, "a reference temperature", positive=True))
-        self.design.elements.append(Resistor(name, loc, a=a, b=b, resistance=r, heats=heats, tempco=tc))
-
-    def st_capacitor(self, t):
-        name, a, b, loc = self._two(t)
-        c = self.const(t.children[3], U.CAPACITANCE, "a capacitance", positive=True)
-        at = self.attrs(t.children[4], ("start",), "capacitor")
-        start = self.const(at["start"].children[0], U.VOLTAGE, "a start voltage") if "start" in at else None
-        self.design.elements.append(Capacitor(name, loc, a=a, b=b, capacitance=c, start=start))
-
-    def st_inductor(self, t):
-        name, a, b, loc = self._two(t)
-        ind = self.const(t.children[3], U.INDUCTANCE, "an inductance", positive=True)
-        at = self.attrs(t.children[4], ("start",), "inductor")
-        start = self.const(at["start"].children[0], U.CURRENT, "a start current") if "start" in at else None
-        self.design.elements.append(Inductor(name, loc, a=a, b=b, inductance=ind, start=start))
-
-    def st_source(self, t):
-        name, a, b, loc = self._two(t)
-        wave, dim = self.wave(t.children[3], (U.VOLTAGE, U.CURRENT), "a source")
-        cls = VoltageSource if dim == U.VOLTAGE else CurrentSource
-        self.design.elements.append(cls(name, loc, a=a, b=b, value=wave))
-
-    def st_switch(self, t):
-        name, a, b, loc = self._two(t)
-        at = self.attrs(t.children[3], ("closed", "on", "off"), "switch")
-        if "closed" not in at:
-            raise self.err(t, f"switch `{name}` needs `closed T1 .. T2`", "e.g. `closed 1 s .. 2 s, 5 s .. 6 s`")
-        intervals = []
-        for iv in at["closed"].children:
-            t1 = self.const(iv.children[0], U.TIME, "a switch time", nonneg=True)
-            t2 = self.const(iv.children[1], U.TIME, "a switch time", nonneg=True)
-            if t2 <= t1:
-                raise self.err(iv, f"the interval {t1:g} s .. {t2:g} s is empty or reversed",
-                               "write the earlier time first")
-            intervals.append((t1, t2))
-        intervals.sort()
-        for (x1, x2), (y1, y2) in zip(intervals, intervals[1:]):
-            if y1 < x2:
-                raise self.err(at["closed"], "the closed intervals of a switch overlap")
-        r_on = self.const(at["on"].children[0], U.RESISTANCE, "an on resistance", positive=True) if "on" in at else 1e-3
-        r_off = self.const(at["off"].children[0], U.RESISTANCE, "an off resistance", positive=True) if "off" in at else 1e9
-        self.design.elements.append(Switch(name, loc, a=a, b=b, intervals=intervals, r_on=r_on, r_off=r_off))
-
-    def st_thermoelectric(self, t):
-        name_tok, attrs = t.children
-        name = self.element_name(name_tok)
-        at = self.attrs(attrs, ("pins", "sides", "seebeck", "resistance", "conductance", "couples", "rated",
-                                "hottest"), "thermoelectric")
-        for key, example in (("pins", "pins P N"), ("sides", "sides A B")):
-            if key not in at:
-                raise self.err(name_tok, f"thermoelectric `{name}` needs `{example}`")
-        lumped = [k for k in ("seebeck", "resistance", "conductance") if k in at]
-        forms = [f for f, present in (("lumped", bool(lumped)), ("couples", "couples" in at),
-                                      ("rated", "rated" in at)) if present]
-        if len(forms) != 1:
-            raise self.err(name_tok, f"thermoelectric `{name}` needs exactly one way to give its values"
-                           + (f", not {' and '.join(forms)}" if forms else ""),
-                           "either `seebeck S resistance R conductance K`, or `couples N material M leg AREA "
-                           "LENGTH`, or `rated imax I vmax V dtmax DT at TEMP`")
-        p, n = (self.node(x, ELECTRICAL) for x in at["pins"].children)
-        a, b = (self.node(x, THERMAL) for x in at["sides"].children)
-        e = Thermoelectric(name, self.loc(name_tok), p=p, n=n, a=a, b=b, form=forms[0])
-        if forms[0] == "lumped":
-            missing = [k for k in ("seebeck", "resistance", "conductance") if k not in at]
-            if missing:
-                raise self.err(name_tok, f"thermoelectric `{name}` needs {', '.join('`' + m + '`' for m in missing)}",
-                               "give the module's lumped values: seebeck S  resistance R  conductance K")
-            e.seebeck = self.const(at["seebeck"].children[0], U.SEEBECK, "a Seebeck coefficient")
-            e.resistance = self.const(at["resistance"].children[0], U.RESISTANCE, "a module resistance", positive=True)
-            e.conductance = self.const(at["conductance"].children[0], U.THERMAL_CONDUCTANCE, "a module conductance",
-                                       positive=True)
-        elif forms[0] == "rated":
-            i_t, v_t, dt_t, th_t = at["rated"].children
-            imax = self.const(i_t, U.CURRENT, "imax", positive=True)
-            vmax = self.const(v_t, U.VOLTAGE, "vmax", positive=True)
-            dtmax = self.const(dt_t, U.TEMPERATURE, "dtmax", positive=True)
-            th = self.const(th_t, U.TEMPERATURE, "the rating temperature", positive=True)
-            if dtmax >= th:
-                raise self.err(dt_t, "dtmax must be smaller than the hot-side rating temperature")
-            # LANGUAGE.md form 3, the ideal-equation inversion of the ratings.
-            e.seebeck = vmax / th
-            e.resistance = vmax * (th - dtmax) / (th * imax)
-            e.conductance = vmax * imax * (th - dtmax) / (2 * th * dtmax)
-        else:
-            n_t, mat_tok, area_t, len_t = at["couples"].children
-            couples = self.const(n_t, U.NONE, "the number of couples", positive=True)
-            mat = self.design.materials.get(str(mat_tok))
-            if mat is None:
-                close = difflib.get_close_matches(str(mat_tok), list(self.design.materials), n=1)
-                raise self.err(mat_tok, f"unknown material `{mat_tok}`",
-                               f"did you mean `{close[0]}`?" if close else "define it first with `material NAME { ... }`")
-            area = self.const(area_t, U.AREA, "a leg area", positive=True)
-            length = self.const(len_t, U.LENGTH, "a leg length", positive=True)
-            from netgen.model.expr import Binary, Const as K_
-
-            def scaled(expr, factor):
-                return Binary("*", K_(factor), expr)
-
-            props = (scaled(mat.seebeck, 2 * couples), scaled(mat.resistivity, 2 * couples * length / area),
-                     scaled(mat.conductivity, 2 * couples * area / length))
-            values = [float(evaluate(x, T=300.0)) for x in props]
-            if any(not isinstance(x, Const) and x.uses_vars for x in (mat.seebeck, mat.resistivity, mat.conductivity)):
-                e.props = props
-            e.seebeck, e.resistance, e.conductance = values
-            if e.resistance <= 0 or e.conductance <= 0:
-                raise self.err(mat_tok, f"material `{mat.name}` gives a module resistance or conductance that is not positive")
-        if "hottest" in at:
-            e.hottest = self.const(at["hottest"].children[0], U.TEMPERATURE, "the hottest allowed side temperature",
-                                   positive=True)
-        self.design.elements.append(e)
 
     def st_material(self, t):
         name_tok, attrs = t.children
@@ -707,23 +563,23 @@ def check_signal(d: Design, kind: str, names: tuple[str, ...]) -> None:
         return
     if len(names) != 1:
         raise ValueError(f"`{kind}(...)` takes one name", None)
-    name = names[0]
-    if kind == "Q" and "." in name and d.element(name) is None:
-        base, side = name.rsplit(".", 1)
-        e = d.element(base)
-        if isinstance(e, Thermoelectric) and side in ("a", "b"):
+    elements = {e.name: e for e in d.elements}
+    name, side = Signal(kind, names).element_and_side(elements.__contains__)
+    e = elements.get(name)
+    if side is not None and e is not None and e.sides:
+        if side in e.sides:
             return
-        if isinstance(e, Thermoelectric):
-            raise ValueError(f"a thermoelectric side is `.a` or `.b`, not `.{side}`", None)
-    e = d.element(name)
+        raise ValueError(f"a {e.statement} side is " + " or ".join(f"`.{x}`" for x in e.sides) + f", not `.{side}`",
+                         None)
+    e = elements.get(names[0])
     if e is None:
-        raise ValueError(f"unknown element `{name}`", nearest(name, [x.name for x in d.elements]))
-    electrical = (Resistor, Capacitor, Inductor, VoltageSource, CurrentSource, Switch, Thermoelectric)
-    if kind in ("I", "P") and not isinstance(e, electrical):
+        raise ValueError(f"unknown element `{names[0]}`", nearest(names[0], elements))
+    if kind in ("I", "P") and kind not in e.signals:
         raise ValueError(f"`{kind}({name})` needs an electrical element; `{name}` is thermal",
                          f"write Q({name}) for its heat flow")
-    if kind == "Q" and not isinstance(e, (Link, Heat, Fixed)):
-        hint = f"write Q({name}.a) or Q({name}.b)" if isinstance(e, Thermoelectric) else f"write I({name}) or P({name})"
+    if kind == "Q" and "Q" not in e.signals:
+        hint = (f"write Q({name}.{e.sides[0]}) or Q({name}.{e.sides[1]})" if e.sides
+                else f"write I({name}) or P({name})")
         raise ValueError(f"`Q({name})` needs a link, a heat input or a reservoir", hint)
 
 

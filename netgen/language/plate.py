@@ -20,7 +20,8 @@ import re
 from dataclasses import dataclass
 
 from netgen.model import units as U
-from netgen.model.design import THERMAL, Link, Loc, Node
+from netgen.model.design import THERMAL, Loc, Node
+from netgen.elements import Link
 from netgen.model.errors import NetgenError
 
 EDGES = ("left", "right", "top", "bottom")

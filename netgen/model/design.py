@@ -1,9 +1,12 @@
 """The Design model: nodes, elements, analyses and records in SI, each with its source location."""
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass, field
+from typing import ClassVar
 
 from netgen.model.expr import Expr, Wave
+from netgen.model.signals import SIGNAL_UNITS, Signal, signal_unit  # noqa: F401 - part of the model
 
 THERMAL = "thermal"
 ELECTRICAL = "electrical"
@@ -46,102 +49,6 @@ class Element:
 
 
 @dataclass
-class TwoTerminal(Element):
-    a: str = ""
-    b: str = ""
-
-    @property
-    def terminals(self):
-        return (self.a, self.b)
-
-
-@dataclass
-class Link(TwoTerminal):
-    """Thermal conductance between nodes a and b, W/K."""
-
-    conductance: float = 0.0
-
-
-@dataclass
-class Heat(Element):
-    """Heat input into `node`, W (may vary in time)."""
-
-    node: str = ""
-    power: Wave | None = None
-
-    @property
-    def terminals(self):
-        return (self.node,)
-
-
-@dataclass
-class Fixed(Element):
-    """A reservoir: `node` held at `temperature` (K, may vary in time). Named after its node."""
-
-    node: str = ""
-    temperature: Wave | None = None
-
-    @property
-    def terminals(self):
-        return (self.node,)
-
-
-@dataclass
-class Tempco:
-    """R = R0·(1 + alpha·(T(node) − ref))."""
-
-    alpha: float
-    node: str
-    ref: float
-
-
-@dataclass
-class Resistor(TwoTerminal):
-    resistance: float = 0.0
-    heats: str | None = None
-    tempco: Tempco | None = None
-
-
-@dataclass
-class Capacitor(TwoTerminal):
-    capacitance: float = 0.0
-    start: float | None = None
-
-
-@dataclass
-class Inductor(TwoTerminal):
-    inductance: float = 0.0
-    start: float | None = None
-
-
-@dataclass
-class VoltageSource(TwoTerminal):
-    """V(a) − V(b) = value; its current is the current it delivers out of a."""
-
-    value: Wave | None = None
-
-
-@dataclass
-class CurrentSource(TwoTerminal):
-    """Delivers `value` amperes out of a (into node a), returning at b."""
-
-    value: Wave | None = None
-
-
-@dataclass
-class Switch(TwoTerminal):
-    """Closed (r_on) during the listed intervals, open (r_off) otherwise."""
-
-    intervals: list[tuple[float, float]] = field(default_factory=list)
-    r_on: float = 1e-3
-    r_off: float = 1e9
-
-    def closed_at(self, t: float) -> bool:
-        """Closed on [t1, t2): the state just after `t`."""
-        return any(t1 <= t < t2 for t1, t2 in self.intervals)
-
-
-@dataclass
 class Material:
     """Thermoelectric material: Seebeck coefficient (V/K), resistivity (ohm·m), thermal
     conductivity (W/(m·K)), each an expression of the temperature `T` in K."""
@@ -151,39 +58,6 @@ class Material:
     seebeck: Expr
     resistivity: Expr
     conductivity: Expr
-
-
-@dataclass
-class Thermoelectric(Element):
-    """Module: pins p, n (electrical), sides a, b (thermal); I from p to n moves heat a → b.
-
-    `seebeck`, `resistance`, `conductance` are the lumped S, R, K. When they depend on
-    temperature (a material with expressions of T), `props` holds them as expressions of the
-    mean side temperature `T`, and the floats hold their values at 300 K for reports only.
-    """
-
-    p: str = ""
-    n: str = ""
-    a: str = ""
-    b: str = ""
-    seebeck: float = 0.0
-    resistance: float = 0.0
-    conductance: float = 0.0
-    props: tuple | None = None
-    form: str = "lumped"  # lumped | couples | rated
-    hottest: float | None = None  # highest allowed side temperature, K
-
-    @property
-    def terminals(self):
-        return (self.p, self.n, self.a, self.b)
-
-    def values_at(self, T):
-        """S, R, K at mean side temperature T (float or array)."""
-        if self.props is None:
-            return self.seebeck, self.resistance, self.conductance
-        from netgen.model.expr import evaluate
-
-        return tuple(evaluate(e, T=T) for e in self.props)
 
 
 @dataclass
@@ -202,28 +76,6 @@ class Transient:
 @dataclass
 class Modes:
     loc: Loc
-
-
-SIGNAL_UNITS = {"T": "K", "V": "V", "I": "A", "Q": "W", "P": "W"}
-
-
-def signal_unit(signal: str) -> str:
-    """The SI unit of a signal written as text, e.g. `K` for `T(die)`; "" for anything else."""
-    return SIGNAL_UNITS.get(signal[:1], "")
-
-
-@dataclass
-class Signal:
-    """A result signal as written, e.g. T(die), V(a, b), Q(tec1.a)."""
-
-    kind: str  # T V I Q P
-    args: tuple[str, ...]
-    loc: Loc
-    written: str = ""  # as it stands in the file, e.g. `V(a,b)`: the column heading
-
-    @property
-    def text(self) -> str:
-        return self.written or f"{self.kind}({', '.join(self.args)})"
 
 
 @dataclass
@@ -298,8 +150,9 @@ class Design:
     def transient(self) -> Transient | None:
         return next((a for a in self.analyses if isinstance(a, Transient)), None)
 
-    def run(self):
-        """Solve this design's analyses and return its Results."""
-        from netgen.analyses import run_design  # the one place the model hands itself on
+    # Set by `netgen/__init__.py` to `netgen.run`: the model itself knows no solver.
+    runner: ClassVar[Callable | None] = None
 
-        return run_design(self)
+    def run(self):
+        """Solve this design's analyses and return its Results: the same as `netgen.run(design)`."""
+        return Design.runner(self)

@@ -33,6 +33,38 @@ class Expr:
     def uses_signals(self) -> bool:
         return any(isinstance(n, SignalRef) for n in self.walk())
 
+    # Arithmetic builds trees (folding constants, dropping zeros and ones), so that element
+    # kinds can write their equations once as `R * I + S * (Tb - Ta)`.
+    def __add__(self, other):
+        return plus(self, other)
+
+    def __radd__(self, other):
+        return plus(other, self)
+
+    def __sub__(self, other):
+        return minus(self, other)
+
+    def __rsub__(self, other):
+        return minus(other, self)
+
+    def __mul__(self, other):
+        return times(self, other)
+
+    def __rmul__(self, other):
+        return times(other, self)
+
+    def __truediv__(self, other):
+        return over(self, other)
+
+    def __rtruediv__(self, other):
+        return over(other, self)
+
+    def __pow__(self, other):
+        return power(self, other)
+
+    def __neg__(self):
+        return times(-1.0, self)
+
 
 @dataclass(frozen=True)
 class Const(Expr):
@@ -96,6 +128,8 @@ class Binary(Expr):
 _FUNCS = {
     "sqrt": np.sqrt, "exp": np.exp, "log": np.log, "abs": np.abs,
     "sin": np.sin, "cos": np.cos,
+    # Made only by differentiation (netgen.model.calculus), never read from a file.
+    "sign": np.sign, "above": lambda x: np.heaviside(x, 0.5),
 }
 
 
@@ -234,6 +268,67 @@ def corners(expr: Expr, t_end: float) -> list[float]:
         if isinstance(n, Shape):
             out.update(n.corners(t_end))
     return sorted(out)
+
+
+def lift(x) -> Expr:
+    """A number as a constant; an expression as it is."""
+    return x if isinstance(x, Expr) else Const(float(x))
+
+
+def plus(a, b) -> Expr:
+    a, b = lift(a), lift(b)
+    if isinstance(a, Const) and isinstance(b, Const):
+        return Const(a.v + b.v)
+    if isinstance(a, Const) and a.v == 0:
+        return b
+    if isinstance(b, Const) and b.v == 0:
+        return a
+    return Binary("+", a, b)
+
+
+def minus(a, b) -> Expr:
+    a, b = lift(a), lift(b)
+    if isinstance(b, Const):
+        return plus(a, Const(-b.v))
+    if isinstance(a, Const) and a.v == 0:
+        return times(-1.0, b)
+    return Binary("-", a, b)
+
+
+def times(a, b) -> Expr:
+    a, b = lift(a), lift(b)
+    if isinstance(a, Const) and isinstance(b, Const):
+        return Const(a.v * b.v)
+    if isinstance(b, Const):
+        a, b = b, a
+    if isinstance(a, Const):
+        if a.v == 0:
+            return a
+        if a.v == 1:
+            return b
+        if a.v == -1 and isinstance(b, Unary):
+            return b.a
+        if a.v == -1:
+            return Unary("neg", b)
+    return Binary("*", a, b)
+
+
+def over(a, b) -> Expr:
+    a, b = lift(a), lift(b)
+    if isinstance(b, Const) and b.v == 1:
+        return a
+    if isinstance(a, Const) and a.v == 0:
+        return a
+    return Binary("/", a, b)
+
+
+def power(a, b) -> Expr:
+    a, b = lift(a), lift(b)
+    if isinstance(b, Const) and b.v == 1:
+        return a
+    if isinstance(b, Const) and b.v == 0:
+        return Const(1.0)
+    return Binary("^", a, b)
 
 
 def evaluate(expr: Expr, time=0.0, left: bool = False, signals: dict | None = None, **variables):

@@ -14,7 +14,8 @@ from pathlib import Path
 import numpy as np
 
 from netgen import __version__
-from netgen.model.design import ELECTRICAL, THERMAL, Design, Thermoelectric, signal_unit
+from netgen.model.design import ELECTRICAL, THERMAL, Design, signal_unit
+from netgen.elements import Thermoelectric
 from netgen.checks.results import Results
 
 ZERO_C = 273.15

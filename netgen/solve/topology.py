@@ -5,26 +5,18 @@ from collections import Counter
 
 import networkx as nx
 
-from netgen.model.design import (
-    ELECTRICAL, THERMAL, Capacitor, CurrentSource, Design, Fixed, Heat, Inductor, Link, Resistor,
-    Switch, Thermoelectric, TwoTerminal, VoltageSource,
-)
+from netgen.elements import THERMAL_REF, Fixed
+from netgen.model.design import ELECTRICAL, THERMAL, Design, Loc
 from netgen.model.errors import NetgenError, NetgenErrors
 
-THERMAL_REF = "<absolute zero>"
 
 
 def _branches(d: Design):
-    """(node, node, element, kind) for every branch: two-terminal elements, module pins and
-    sides, and reservoirs, heat inputs and masses to the thermal reference."""
+    """(node, node, element, kind) for every branch: each element's own (two-terminal elements,
+    module pins and sides, reservoirs and heat inputs to the thermal reference), and masses."""
     for e in d.elements:
-        if isinstance(e, TwoTerminal):
-            yield e.a, e.b, e.name, type(e).__name__
-        elif isinstance(e, Thermoelectric):
-            yield e.p, e.n, e.name, "pins"
-            yield e.a, e.b, e.name, "sides"
-        elif isinstance(e, (Fixed, Heat)):
-            yield e.node, THERMAL_REF, e.name, type(e).__name__
+        for a, b, label in e.branches():
+            yield a, b, e.name, label
     for n in d.nodes.values():
         if n.capacity is not None:
             yield n.name, THERMAL_REF, n.name, "mass"
@@ -47,15 +39,11 @@ def _domain_graph(d: Design, domain: str, dc: bool) -> nx.Graph:
     g = nx.Graph()
     g.add_nodes_from(n.name for n in d.nodes.values() if n.domain == domain)
     for e in d.elements:
-        if isinstance(e, TwoTerminal) and d.nodes[e.a].domain == domain:
-            if dc and isinstance(e, (Capacitor, CurrentSource)):
-                continue
-            g.add_edge(e.a, e.b)
-        elif isinstance(e, Thermoelectric):
-            if domain == ELECTRICAL:
-                g.add_edge(e.p, e.n)
-            else:
-                g.add_edge(e.a, e.b)
+        if dc and not e.carries_dc:
+            continue
+        for a, b, _ in e.branches():
+            if b != THERMAL_REF and d.nodes[a].domain == domain:
+                g.add_edge(a, b)
     return g
 
 
@@ -76,8 +64,6 @@ def check_design(d: Design) -> None:
     """Structural checks before any solve. Raises NetgenError naming nodes and elements."""
     errors: list[NetgenError] = []
     if not d.nodes:
-        from netgen.model.design import Loc
-
         raise NetgenError("the design has no nodes", Loc(d.file, 1, 1), "add masses, links, resistors ...")
     fixed_nodes = {e.node for e in d.elements if isinstance(e, Fixed)}
 
@@ -125,18 +111,18 @@ def check_design(d: Design) -> None:
     for analysis, started in passes:
         g = _domain_graph(d, ELECTRICAL, dc=True)
         if started:
-            g.add_edges_from((e.a, e.b) for e in d.of_kind(Capacitor) if e.start is not None)
+            g.add_edges_from((e.a, e.b) for e in d.elements if getattr(e, "start", None) is not None)
         for comp in nx.connected_components(g):
             if comp & set(d.grounds) or comp & islanded:
                 continue
             islanded |= comp
-            cut = [e for e in d.elements if isinstance(e, (Capacitor, CurrentSource))
+            cut = [e for e in d.elements if not e.carries_dc and len(e.terminals) == 2
                    and (e.a in comp) != (e.b in comp)]
             first = cut[0] if cut else min((d.nodes[n] for n in comp), key=lambda n: (n.loc.line, n.loc.col))
-            kinds = " and ".join(sorted({"capacitors" if isinstance(e, Capacitor) else "current sources"
-                                         for e in cut})) or "nothing"
+            kinds = " and ".join(sorted({e.noun for e in cut})) or "nothing"
+            startable = [e for e in cut if hasattr(e, "start")]
             hint = ("give the capacitor a `start` voltage, or add a resistor to ground (1 Gohm will do)"
-                    if analysis == "transient" or any(isinstance(e, Capacitor) for e in cut)
+                    if analysis == "transient" or startable
                     else "add a resistor from one of them to ground")
             errors.append(NetgenError(
                 f"{_nodes('electrical', comp, 'is', 'are')} reached only through {kinds} "
@@ -146,7 +132,7 @@ def check_design(d: Design) -> None:
     # Loops of voltage-defining branches make the equations singular.
     vg = nx.Graph()
     for e in d.elements:
-        if isinstance(e, (VoltageSource, Inductor)):
+        if e.defines_voltage:
             a = "<ground>" if e.a in d.grounds else e.a
             b = "<ground>" if e.b in d.grounds else e.b
             if a == b or vg.has_edge(a, b) or (a in vg and b in vg and nx.has_path(vg, a, b)):
@@ -174,4 +160,4 @@ def unused_warnings(d: Design) -> list[str]:
     return out
 
 
-__all__ = ["graph", "check_design", "unused_warnings", "THERMAL_REF", "Link", "Resistor", "Switch"]
+__all__ = ["graph", "check_design", "unused_warnings", "THERMAL_REF"]

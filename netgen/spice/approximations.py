@@ -4,9 +4,10 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
-from netgen.model.design import CurrentSource, Design, Fixed, Heat, Switch, VoltageSource
+from netgen.model.design import Design
+from netgen.elements import Switch
 from netgen.model.expr import Shape, Wave
-from netgen.checks.results import signal_texts
+from netgen.solve.signals import signal_texts
 from netgen.spice.netlist import Names
 
 if TYPE_CHECKING:
@@ -24,18 +25,11 @@ class Jump:
 def inputs(d: Design) -> set[str]:
     """Signals that are our own source values in both results (a heat input's power, a current
     source's current): the simulator writes no vector for them, so there is nothing to compare."""
-    return {f"Q({e.name})" for e in d.of_kind(Heat)} | {f"I({e.name})" for e in d.of_kind(CurrentSource)}
+    return {f"{e.given}({e.name})" for e in d.elements if e.given}
 
 
 def _waves(d: Design) -> list[tuple[str, Wave]]:
-    out = []
-    for e in d.elements:
-        if isinstance(e, Fixed):
-            out.append((f"fixed {e.name}", e.temperature))
-        elif isinstance(e, Heat):
-            out.append((f"heat {e.name}", e.power))
-        elif isinstance(e, (VoltageSource, CurrentSource)):
-            out.append((f"source {e.name}", e.value))
+    out = [(f"{e.statement} {e.name}", w) for e in d.elements for w in e.waves().values()]
     return [(what, w) for what, w in out if not w.constant]
 
 

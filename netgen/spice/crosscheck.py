@@ -10,8 +10,11 @@ from typing import Callable
 import numpy as np
 
 from netgen.solve.assembly import System, assemble
-from netgen.model.design import Design, Link, Modes, Signal, Thermoelectric
-from netgen.checks.results import Results, SignalEval, signal_texts
+from netgen.analyses import run
+from netgen.checks.results import Results
+from netgen.model.design import Design, Modes
+from netgen.model.signals import parse as parse_signal
+from netgen.solve.signals import SignalEval, signal_texts
 from netgen.spice.resample import Onto, cuts, near, spread
 from netgen.spice.approximations import Jump, inputs, jumps, notes
 from netgen.spice.netlist import Names, netlist
@@ -121,9 +124,9 @@ def crosscheck(design: Design, simulator: str = DEFAULT_SIMULATOR, tol: Toleranc
     text, nm = netlist(design)
     if edit is not None:
         text = edit(text)
-    run = simulate(text, simulator, keep, env)
-    ours = for_comparison(design).run()
-    return compare(ours, nm, run.plots, tol or Tolerances(), run.command)
+    theirs = simulate(text, simulator, keep, env)
+    ours = run(for_comparison(design))
+    return compare(ours, nm, theirs.plots, tol or Tolerances(), theirs.command)
 
 
 def for_comparison(d: Design) -> Design:
@@ -131,8 +134,8 @@ def for_comparison(d: Design) -> Design:
     ours alone to evaluate (expectations, audits, modes): the analyses are unchanged."""
     texts = signal_texts(d)
     sys = assemble(d)
-    records = [Signal(t[0], tuple(a.strip() for a in t[2:-1].split(",")), None) for t in texts]
-    records += [Signal(n[0], (n[2:-1],), None) for n in sys.names if n not in texts]
+    records = [parse_signal(t) for t in texts]
+    records += [parse_signal(n) for n in sys.names if n not in texts]
     return dataclasses.replace(d, records=records, expectations=[], audits=[],
                                analyses=[a for a in d.analyses if not isinstance(a, Modes)])
 
@@ -301,12 +304,10 @@ def _conductance(d: Design) -> float:
     """The largest total thermal conductance at one node (links and modules), W/K."""
     at: dict[str, float] = {}
     for e in d.elements:
-        if isinstance(e, Link):
-            pair, g = (e.a, e.b), e.conductance
-        elif isinstance(e, Thermoelectric):
-            pair, g = (e.a, e.b), e.conductance
-        else:
+        link = e.thermal_conductance()
+        if link is None:
             continue
-        for n in pair:
+        a, b, g = link
+        for n in (a, b):
             at[n] = at.get(n, 0.0) + g
     return max(at.values(), default=0.0)

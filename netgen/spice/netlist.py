@@ -7,14 +7,10 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from netgen.solve.steady import solve_dc
-from netgen.solve.assembly import assemble
-from netgen.model.design import (
-    ELECTRICAL, THERMAL, Capacitor, CurrentSource, Design, Fixed, Heat, Inductor, Link, Resistor,
-    Switch, Thermoelectric, VoltageSource,
-)
-from netgen.model.errors import NetgenError
+from netgen.model.calculus import substitute
+from netgen.model.design import ELECTRICAL, THERMAL, Design
 from netgen.model.expr import Binary, Const, Expr, Func, Shape, Time, Unary, Var, Wave, evaluate
+from netgen.spice.starts import Starts, starts_of
 
 EDGE = 1e-3  # a jump becomes a linear edge this many output steps wide
 SAMPLES = 1000  # evenly spaced points of a sampled PWL over the run, besides its corners
@@ -74,15 +70,6 @@ def names(d: Design) -> Names:
     return Names(nodes, _unique([e.name for e in d.elements], ""))
 
 
-def _vdiff(a: str, b: str) -> str:
-    """V(a) − V(b) in the plainest B-source form; node 0 is written out of it."""
-    if b == "0":
-        return f"V({a})"
-    if a == "0":
-        return f"(-V({b}))"
-    return f"(V({a})-V({b}))"
-
-
 def bexpr(e: Expr, var: dict[str, str] | None = None) -> str:
     """An Expr of `time` (or of variables given as B-source text in `var`, such as a material's
     `T`) as a SPICE3 B-source expression, fully parenthesised."""
@@ -131,20 +118,42 @@ class _Writer:
         self.until = tr.until if tr else self._horizon()
         self.step = (tr.step if tr and tr.step else self.until / 500)
         self.edge = EDGE * self.step
+        self.elements = {e.name: e for e in d.elements}
         self.lines: list[str] = []
         self.models: list[str] = []
         self.notes: set[str] = set()
-        self.internal: dict[str, tuple] = {}  # netlist node → how to get its value from a state
+        # netlist node → (the element it belongs to, its value from a lookup of our unknowns by name)
+        self.internal: dict[str, tuple[str, object]] = {}
         self.ics: list[tuple[int, tuple[str, ...]]] = []  # (line index, our names whose value is IC=)
 
     def _horizon(self) -> float:
         """Without a transient, time shapes are still written out, to twice their last event."""
-        ends = [_span(x) for e in self.d.elements for w in _waves(e) for x in w.expr.walk()
+        ends = [_span(x) for e in self.d.elements for w in e.waves().values() for x in w.expr.walk()
                 if isinstance(x, Shape)]
         return 2 * max(ends) if ends and max(ends) > 0 else 1.0
 
+    num = staticmethod(num)
+
     def node(self, name: str) -> str:
         return self.names.nodes[name]
+
+    def v(self, spice_node: str) -> str:
+        """A netlist node's voltage in a B-source expression (node 0 is 0)."""
+        return "0" if spice_node == "0" else f"V({spice_node})"
+
+    def expr(self, e: Expr, values: dict) -> str:
+        """An element's equation as B-source text: numbers in `values` are folded into the
+        tree, strings (`V(t_a)`, `I(vte_m)`) stand for the variables they name."""
+        e = substitute(e, {k: Const(float(v)) for k, v in values.items() if not isinstance(v, str)})
+        return bexpr(e, {k: v for k, v in values.items() if isinstance(v, str)})
+
+    def signal(self, ours: str, vector: str) -> None:
+        """Our signal `ours` is the simulator's vector `vector` (with a leading `-` where the signs differ)."""
+        self.names.signals[ours] = vector
+
+    def internal_node(self, node: str, owner: str, value) -> None:
+        """A node of the netlist that is none of ours; `value(lookup)` gives it from a state."""
+        self.internal[node] = (owner, value)
 
     def row(self, spice: str, ours: str) -> None:
         self.names.rows.append((spice, ours))
@@ -251,130 +260,27 @@ class _Writer:
                 self.add(name, nm.nodes[n.name], 0, num(n.capacity), ic=(n.name,))
                 self.row(name, f"mass {n.name}: heat capacity, J/K")
         for e in d.elements:
-            getattr(self, "el_" + type(e).__name__.lower())(e, nm.stems[e.name])
-
-    def el_link(self, e: Link, s: str) -> None:
-        self.add(f"rlink_{s}", self.node(e.a), self.node(e.b), num(1.0 / e.conductance))
-        self.row(f"rlink_{s}", f"link {e.name}: thermal resistance, K/W")
-
-    def el_fixed(self, e: Fixed, s: str) -> None:
-        name = self.source("V", "fix", s, self.node(e.node), "0", e.temperature)
-        self.row(name, f"fixed {e.name}: reservoir temperature, K")
-        self.names.signals[f"Q({e.name})"] = f"-I({name})"  # SPICE's branch current enters at +
-
-    def el_heat(self, e: Heat, s: str) -> None:
-        name = self.source("I", "heat", s, "0", self.node(e.node), e.power)  # pushes into the node
-        self.row(name, f"heat {e.name}: heat input, W")
-
-    def el_resistor(self, e: Resistor, s: str) -> None:
-        a, b = self.node(e.a), self.node(e.b)
-        if e.heats is None and e.tempco is None:
-            self.add(f"r_{s}", a, b, num(e.resistance))
-            self.row(f"r_{s}", f"resistor {e.name}")
-            return
-        r = num(e.resistance)
-        if e.tempco:
-            tc = e.tempco
-            r = f"({r}*(1+{_factor(tc.alpha)}*(V({self.node(tc.node)})-{num(tc.ref)})))"
-        u = _vdiff(a, b)
-        self.add(f"bres_{s}", a, b, f"I={u}/{r}")
-        self.row(f"bres_{s}", f"resistor {e.name}: current through R(T)")
-        if e.heats:
-            self.add(f"bjoule_{s}", 0, self.node(e.heats), f"I={u}*{u}/{r}")
-            self.row(f"bjoule_{s}", f"resistor {e.name}: Joule heat into {e.heats}, W")
-
-    def el_capacitor(self, e: Capacitor, s: str) -> None:
-        self.add(f"c_{s}", self.node(e.a), self.node(e.b), num(e.capacitance), ic=(e.a, e.b))
-        self.row(f"c_{s}", f"capacitor {e.name}")
-
-    def el_inductor(self, e: Inductor, s: str) -> None:
-        self.add(f"l_{s}", self.node(e.a), self.node(e.b), num(e.inductance), ic=(e.name,))
-        self.row(f"l_{s}", f"inductor {e.name}")
-        self.names.signals[f"I({e.name})"] = f"I(l_{s})"
-
-    def el_voltagesource(self, e: VoltageSource, s: str) -> None:
-        name = self.source("V", "", s, self.node(e.a), self.node(e.b), e.value)
-        self.row(name, f"source {e.name}: V({e.a}) - V({e.b}), V")
-        self.names.signals[f"I({e.name})"] = f"-I({name})"  # ours leaves at a, SPICE's enters there
-
-    def el_currentsource(self, e: CurrentSource, s: str) -> None:
-        name = self.source("I", "", s, self.node(e.b), self.node(e.a), e.value)  # out of a
-        self.row(name, f"source {e.name}: current out of {e.a}, A")
-
-    def el_switch(self, e: Switch, s: str) -> None:
-        ctl = f"x_{s}_ctl"
-        self.internal[ctl] = ("switch", e)
-        pts = [(0.0, float(e.closed_at(0.0)))]
-        for t1, t2 in e.intervals:
-            pts += [(t1, 0.0), (t1, 1.0), (t2, 1.0), (t2, 0.0)]
-        pts = [pts[0]] + [p for p in pts[1:] if p[0] > 0]
-        self.add(f"vsw_{s}", ctl, 0, f"DC {num(pts[0][1])} {self.pwl(pts)}")
-        self.add(f"s_{s}", self.node(e.a), self.node(e.b), ctl, 0, f"msw_{s}")
-        self.models.append(f".model msw_{s} SW(RON={num(e.r_on)} ROFF={num(e.r_off)} VT=0.5 VH=0)")
-        self.notes.add("switch")
-        self.row(f"s_{s}", f"switch {e.name}: closed while V({ctl}) > 0.5")
-        self.row(f"vsw_{s}", f"switch {e.name}: control, 1 = closed")
-        self.row(f"msw_{s}", f"switch {e.name}: model with its on and off resistances")
-
-    def el_thermoelectric(self, e: Thermoelectric, s: str) -> None:
-        p, n, ta, tb = (self.node(x) for x in (e.p, e.n, e.a, e.b))
-        m, m2, sense = f"x_{s}_m", f"x_{s}_m2", f"vte_{s}"
-        self.internal[m], self.internal[m2] = ("seebeck", e), ("sense", e)
-        i = f"I({sense})"
-        if e.props is None:
-            S, R = _factor(e.seebeck), num(e.resistance)
-            r_line = [f"rte_{s}", m, m2, R]
-            k_line = [f"rtek_{s}", ta, tb, num(1.0 / e.conductance)]
-        else:  # a material's S, R, K are expressions of the mean side temperature T
-            tm = f"(0.5*(V({ta})+V({tb})))"
-            S, R, K = (bexpr(x, {"T": tm}) for x in e.props)
-            r_line = [f"brte_{s}", m, m2, f"I=(V({m})-V({m2}))/{R}"]
-            k_line = [f"brtek_{s}", ta, tb, f"I={K}*(V({ta})-V({tb}))"]
-        self.add(f"bte_{s}", p, m, f"V={S}*(V({tb})-V({ta}))")
-        self.add(*r_line)
-        self.add(sense, m2, n, "DC 0")
-        self.add(*k_line)
-        self.add(f"bteqa_{s}", ta, 0, f"I={S}*V({ta})*{i}-0.5*{R}*{i}*{i}")
-        self.add(f"bteqb_{s}", 0, tb, f"I={S}*V({tb})*{i}+0.5*{R}*{i}*{i}")
-        for name, what in ((f"bte_{s}", "Seebeck voltage S*(T_b - T_a)"), (r_line[0], "electrical resistance"),
-                           (sense, f"0 V sense: I({e.name}) from {e.p} to {e.n}"),
-                           (k_line[0], "thermal conductance K between the sides"),
-                           (f"bteqa_{s}", f"Q({e.name}.a) less conduction, taken from {e.a}"),
-                           (f"bteqb_{s}", f"Q({e.name}.b) less conduction, given to {e.b}")):
-            self.row(name, f"thermoelectric {e.name}: {what}")
-        self.names.signals[f"I({e.name})"] = f"I({sense})"
+            e.netlist(self, nm.stems[e.name])
 
     # ---- states ------------------------------------------------------------------------------
-    def node_values(self, sys, x: np.ndarray) -> dict[str, float]:
-        """Every netlist node's value in state x, internal nodes included."""
-        xe = np.append(x, 0.0)
-        val = lambda name: float(xe[sys.node_index[name]])
-        out = {self.node(n): val(n) for n in self.d.nodes if n not in self.d.grounds}
-        for node, (kind, e) in self.internal.items():
-            if kind == "switch":
-                out[node] = float(e.closed_at(0.0))
-            elif kind == "sense":
-                out[node] = val(e.n)
-            else:
-                S = e.values_at(0.5 * (val(e.a) + val(e.b)))[0]
-                out[node] = val(e.p) - float(S) * (val(e.b) - val(e.a))
+    def node_values(self, state: dict[str, float]) -> dict[str, float]:
+        """Every netlist node's value in a state of our unknowns by name, internal nodes included."""
+        value = lambda name: float(state.get(name, 0.0))  # a ground is absent: 0
+        out = {self.node(n): value(_signal(self.d, n)) for n in self.d.nodes if n not in self.d.grounds}
+        for node, (_, fn) in self.internal.items():
+            out[node] = float(fn(value))
         return out
 
-    def fill_ic(self, sys, x: np.ndarray) -> None:
+    def fill_ic(self, state: dict[str, float]) -> None:
         """IC= on every capacitor, mass and inductor, from the transient's initial state."""
-        xe = np.append(x, 0.0)
+        def value(name):
+            if name in self.d.nodes:
+                return float(state.get(_signal(self.d, name), 0.0))
+            e = self.elements[name]
+            return float(state[f"{e.branch}({name})"])
         for i, names_ in self.ics:
-            if len(names_) == 2:
-                v = xe[sys.node_index[names_[0]]] - xe[sys.node_index[names_[1]]]
-            elif names_[0] in sys.branch_index:
-                v = xe[sys.branch_index[names_[0]]]
-            else:
-                v = xe[sys.node_index[names_[0]]]
+            v = value(names_[0]) - value(names_[1]) if len(names_) == 2 else value(names_[0])
             self.lines[i] += f" IC={num(v)}"
-
-
-def _waves(e) -> list[Wave]:
-    return [w for w in (getattr(e, k, None) for k in ("temperature", "power", "value")) if isinstance(w, Wave)]
 
 
 def _thin(pts: list[tuple[float, float]]) -> list[tuple[float, float]]:
@@ -439,7 +345,7 @@ def _header(d: Design, w: _Writer) -> list[str]:
     grounds = ", ".join(d.grounds)
     out.append("*   0: absolute zero" + (f"; ground {grounds}" if grounds else ""))
     out += [f"*   {spice}: {_signal(d, name)}" for name, spice in nm.nodes.items() if spice != "0"]
-    out += [f"*   {node}: internal node of {e.name}" for node, (_, e) in w.internal.items()]
+    out += [f"*   {node}: internal node of {owner}" for node, (owner, _) in w.internal.items()]
     out += [f"*   {spice}: {ours}" for spice, ours in nm.rows]
     out.append("* Signals (ours = simulator vector):")
     return out + [f"*   {sig} = {vec}" for sig, vec in nm.signals.items()] + ["*"]
@@ -449,27 +355,27 @@ def _signal(d: Design, node: str) -> str:
     return f"{'T' if d.nodes[node].domain == THERMAL else 'V'}({node})"
 
 
-def write_netlist(design: Design) -> str:
+def write_netlist(design: Design, starts: Starts | None = None) -> str:
     """The design as SPICE3 netlist text: elements, name table, `.ic`, `.op`/`.tran`, `.end`."""
-    return netlist(design)[0]
+    return netlist(design, starts)[0]
 
 
-def netlist(design: Design) -> tuple[str, Names]:
-    """The netlist text and the name map it was written with (for reading results back)."""
+def netlist(design: Design, starts: Starts | None = None) -> tuple[str, Names]:
+    """The netlist text and the name map it was written with (for reading results back).
+
+    `starts` holds our solved states that the netlist carries: the steady state as the
+    simulator's first guess, the transient's start as its initial conditions. Without it they
+    are solved here (`starts_of`)."""
+    starts = starts_of(design) if starts is None else starts
     w = _Writer(design)
     nm = w.names
     nm.signals = {_signal(design, n): f"V({s})" for n, s in nm.nodes.items() if s != "0"}
     w.write()
     nm.edge = w.edge
-    sys = assemble(design)
     tr = design.transient
-    want_op = design.steady is not None or tr is None  # with no analysis we solve the steady state
     tail = [OPTIONS]
-    if want_op:
-        try:  # our steady state as Newton's first guess; the answer is still the simulator's own
-            guess = w.node_values(sys, solve_dc(sys, 0.0))
-        except NetgenError:
-            guess = {}
+    if starts.want_op:
+        guess = w.node_values(starts.guess) if starts.guess is not None else {}
         # Temperatures only: from 0 V a thermal node is at absolute zero, far from any answer.
         # With electrical and internal nodes set as well, ngspice's .op was seen to return a
         # state that is no solution (a coil with 0 A and 0.2 V across it) or a root below 0 K
@@ -477,9 +383,8 @@ def netlist(design: Design) -> tuple[str, Names]:
         thermal = {nm.nodes[n.name] for n in design.nodes.values() if n.domain == THERMAL}
         tail += [f".nodeset V({n})={num(v)}" for n, v in guess.items() if n in thermal] + [".op"]
     if tr:
-        x0 = solve_dc(sys, 0.0, impose=True)  # the same initial state as our transient
-        w.fill_ic(sys, x0)
-        tail += [f".ic V({n})={num(v)}" for n, v in w.node_values(sys, x0).items()]
+        w.fill_ic(starts.initial)
+        tail += [f".ic V({n})={num(v)}" for n, v in w.node_values(starts.initial).items()]
         tail.append(f".tran {num(w.step)} {num(tr.until)} uic")
     lines = _header(design, w) + w.lines + w.models + tail + [".end"]
     return "\n".join(lines) + "\n", nm
