@@ -1,26 +1,30 @@
-"""netgen: coupled heat-and-electricity networks from .etn text: solve them, export SPICE netlists."""
+"""netgen: coupled heat-and-electricity networks from .etn text: solve them, export SPICE netlists.
+
+The API's names are imported when first used (PEP 562), so that `netgen --help` and
+`netgen check` start without numpy, scipy and the solvers.
+"""
 from __future__ import annotations
 
-from pathlib import Path
+import importlib
 
 __version__ = "0.1.0"
 
-from netgen.model.design import Design
-from netgen.model.errors import NetgenError
-from netgen.checks.results import Results
-from netgen.analyses import run
-
-Design.runner = staticmethod(run)
+_API = {
+    "load": "netgen.api", "run": "netgen.api", "Design": "netgen.model.design",
+    "Results": "netgen.checks.results", "NetgenError": "netgen.model.errors",
+}
 
 
-def load(path_or_text, overrides: dict[str, str] | None = None) -> Design:
-    """Read a design from a path or from .etn text (anything containing a newline is text)."""
-    from netgen.language import load as _load, load_text
+def __getattr__(name: str):
+    if name not in _API:
+        raise AttributeError(f"module 'netgen' has no attribute {name!r}")
+    value = getattr(importlib.import_module(_API[name]), name)
+    globals()[name] = value
+    return value
 
-    text = str(path_or_text)
-    if isinstance(path_or_text, Path) or ("\n" not in text and (Path(text).suffix == ".etn" or Path(text).is_file())):
-        return _load(path_or_text, overrides)
-    return load_text(str(path_or_text), "<text>", overrides)
+
+def __dir__():
+    return sorted(list(globals()) + list(_API))
 
 
 __all__ = ["load", "run", "Design", "Results", "NetgenError", "__version__"]

@@ -169,3 +169,7 @@ def _audit(d: Design, a, transient, sig) -> Check:
         return Check(text, 100 * result.measured, 100 * result.limit, "%", result.passed, a.loc, result.detail)
     result = entropy_audit(d, t, right, left)
     return Check(text, result.measured, result.limit, "1", result.passed, a.loc, result.detail)
+
+
+# `design.run()` is `netgen.run(design)`: the model knows no solver, so the runner is handed down here.
+Design.runner = staticmethod(run)

@@ -42,7 +42,7 @@ def _notes(d) -> None:
 
 
 def cmd_check(args) -> int:
-    from netgen.outputs.report import describe
+    from netgen.outputs.text import describe
 
     d = _load(args)
     print(describe(d))
@@ -51,7 +51,9 @@ def cmd_check(args) -> int:
 
 
 def cmd_run(args) -> int:
-    from netgen.outputs.report import print_results, write_outputs
+    from netgen.analyses import run
+    from netgen.outputs.files import write_outputs
+    from netgen.outputs.text import print_results
 
     if args.plot or args.report:
         from netgen.outputs.plots import require
@@ -61,17 +63,20 @@ def cmd_run(args) -> int:
     _notes(d)
     progress = None
     if sys.stderr.isatty() and not args.quiet:
-        from netgen.outputs.report import Progress
+        from netgen.outputs.text import Progress
 
         progress = Progress(d.transient.until if d.transient else 1.0)
     try:
-        res = d.run() if progress is None else _run_with(d, progress)
+        res = run(d, progress)
     except NetgenError as e:
         partial = getattr(e, "results", None)
         if args.out and partial is not None:
             for path in write_outputs(partial, Path(args.out)):
                 print(f"wrote {path} (partial: up to t = {partial.time[-1]:.6g} s)", file=sys.stderr)
         raise
+    finally:
+        if progress is not None:
+            progress.done()
     print_results(res)
     if args.out:
         for path in write_outputs(res, Path(args.out)):
@@ -97,7 +102,7 @@ def _run_pictures(args, res) -> None:
         n = len([w for w in written if w.suffix == ".png"])
         print(f"wrote {n} plots (PNG and SVG) to {args.plot}" if written else "no transient: nothing to plot")
     if args.report:
-        from netgen.outputs.report import write_atomic
+        from netgen.outputs.files import write_atomic
         from netgen.outputs.html import html_report
 
         write_atomic(Path(args.report), html_report([o], f"netgen run: {Path(args.file).name}"))
@@ -124,12 +129,12 @@ def cmd_verify(args) -> int:
     print(total_line(outcomes))
     if args.junit:
         from netgen.outputs.junit import junit_xml
-        from netgen.outputs.report import write_atomic
+        from netgen.outputs.files import write_atomic
 
         write_atomic(Path(args.junit), junit_xml(outcomes))
         print(f"wrote {args.junit}")
     if args.report:
-        from netgen.outputs.report import write_atomic
+        from netgen.outputs.files import write_atomic
         from netgen.outputs.html import html_report
 
         write_atomic(Path(args.report), html_report(outcomes, "netgen verify"))
@@ -141,13 +146,6 @@ def cmd_verify(args) -> int:
     return exit_code(outcomes)
 
 
-def _run_with(d, progress):
-    from netgen.analyses import run
-
-    try:
-        return run(d, progress)
-    finally:
-        progress.done()
 
 
 def cmd_export(args) -> int:
@@ -156,7 +154,7 @@ def cmd_export(args) -> int:
     d = _load(args)
     text = write_netlist(d)
     if args.output:
-        from netgen.outputs.report import write_atomic
+        from netgen.outputs.files import write_atomic
 
         write_atomic(Path(args.output), text)
         print(f"wrote {args.output}")
@@ -192,7 +190,7 @@ def _positive(text: str) -> float:
 
 
 def cmd_matrices(args) -> int:
-    from netgen.outputs.report import write_matrices
+    from netgen.outputs.files import write_matrices
 
     d = _load(args)
     for path in write_matrices(d, Path(args.output)):

@@ -5,7 +5,7 @@ import os
 import pytest
 
 import netgen
-from netgen.outputs import report
+from netgen.outputs import files
 from netgen.cli import main
 from netgen.model.errors import SolveError
 
@@ -62,7 +62,7 @@ def test_non_finite_source_value_is_reported():
 def test_crash_while_writing_leaves_the_earlier_file(tmp_path, monkeypatch):
     """A failure in the middle of writing (injected) leaves the earlier file as it was."""
     target = tmp_path / "summary.json"
-    report.write_atomic(target, '{"old": true}\n')
+    files.write_atomic(target, '{"old": true}\n')
 
     class Boom(RuntimeError):
         pass
@@ -86,8 +86,8 @@ def test_crash_while_writing_leaves_the_earlier_file(tmp_path, monkeypatch):
 
         return Half()
 
-    monkeypatch.setattr(report.os, "fdopen", failing_fdopen)
+    monkeypatch.setattr(files.os, "fdopen", failing_fdopen)
     with pytest.raises(Boom):
-        report.write_atomic(target, '{"new": "a much longer text that is cut in half"}\n')
+        files.write_atomic(target, '{"new": "a much longer text that is cut in half"}\n')
     assert target.read_text() == '{"old": true}\n'
     assert [p.name for p in tmp_path.iterdir()] == ["summary.json"]  # no temporary left behind

@@ -9,7 +9,7 @@ import numpy as np
 from netgen.elements.base import EnergyTerm, Equations, TwoTerminal, electrical_power, ix
 from netgen.model import units as U
 from netgen.model.calculus import evaluate_with
-from netgen.model.design import ELECTRICAL, THERMAL
+from netgen.model.design import THERMAL
 from netgen.model.expr import Const, Func, Var
 
 FLOOR = 1e-6  # the tempco factor never falls below this: a resistance never reaches zero

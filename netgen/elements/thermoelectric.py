@@ -19,7 +19,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from netgen.elements.base import Equations, Kind, electrical_power
+from netgen.elements.base import Equations, Kind
 from netgen.model import units as U
 from netgen.model.calculus import evaluate_with, substitute
 from netgen.model.design import ELECTRICAL, THERMAL

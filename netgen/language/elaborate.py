@@ -15,11 +15,12 @@ from netgen.model.design import (
     Transient, signal_unit,
 )
 from netgen.model.errors import NetgenError, NetgenErrors
-from netgen.model.expr import Const, Wave, evaluate
+from netgen.model.expr import Const, Wave
 from netgen.language import plate
 from netgen.language.grammar import parser, paused_gc
 from netgen.language.parts import PartDef, PartsMixin  # noqa: F401
 from netgen.language.expressions import ExprReader, SIGNAL_KINDS, Typed
+from netgen.solve.topology import check_design  # the structural checks run on the finished model
 
 MAX_ERRORS = 20
 NOT_YET: dict[str, str] = {}  # statements of LANGUAGE.md not implemented yet, with a hint
@@ -55,8 +56,6 @@ def load(path, overrides: dict[str, str] | None = None) -> Design:
 
 def load_text(text: str, filename: str = "<text>", overrides: dict[str, str] | None = None) -> Design:
     """Read .etn text into a checked Design."""
-    from netgen.solve.topology import check_design  # the structural checks run on the finished model
-
     with paused_gc():  # reading builds a large graph of objects and no garbage cycles
         design = Elaborator(text, filename, overrides or {}).run()
         check_design(design)

@@ -8,6 +8,8 @@ from pathlib import Path
 
 from lark import Lark
 
+from netgen.language.plain_lines import LineReader
+
 
 def grammar_text() -> str:
     try:
@@ -36,8 +38,6 @@ class Parser:
     """The LALR parser, with plain one-line statements of `start` text read by `lines.LineReader`."""
 
     def __init__(self, lark: Lark):
-        from netgen.language.plain_lines import LineReader
-
         self.lark = lark
         self.lines = LineReader(lark)
 

@@ -5,7 +5,7 @@ from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import ClassVar
 
-from netgen.model.expr import Expr, Wave
+from netgen.model.expr import Expr
 from netgen.model.signals import SIGNAL_UNITS, Signal, signal_unit  # noqa: F401 - part of the model
 
 THERMAL = "thermal"
@@ -155,4 +155,6 @@ class Design:
 
     def run(self):
         """Solve this design's analyses and return its Results: the same as `netgen.run(design)`."""
+        if Design.runner is None:
+            raise RuntimeError("use netgen.run(design), or import netgen.analyses, which hands the model its runner")
         return Design.runner(self)

@@ -9,7 +9,7 @@ from pathlib import Path
 
 from netgen import __version__
 from netgen.outputs import plots
-from netgen.outputs.report import _value, fmt
+from netgen.outputs.text import _value, fmt
 from netgen.regression.verify import Outcome
 
 STYLE = """

@@ -5,7 +5,7 @@ import xml.etree.ElementTree as ET
 from pathlib import Path
 
 from netgen import __version__
-from netgen.outputs.report import check_text
+from netgen.outputs.text import check_text
 from netgen.regression.verify import Outcome
 
 

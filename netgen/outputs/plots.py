@@ -10,7 +10,8 @@ import numpy as np
 
 from netgen.model.errors import NetgenError
 from netgen.model.expr import SignalRef, evaluate
-from netgen.outputs.report import ZERO_C, write_atomic
+from netgen.outputs.text import ZERO_C
+from netgen.outputs.files import write_atomic
 from netgen.checks.results import Results
 from netgen.model.design import signal_unit
 

@@ -6,10 +6,13 @@ import time
 from dataclasses import dataclass, field
 from pathlib import Path
 
+from netgen.analyses import run
+from netgen.language import load
 from netgen.regression.baseline import Baseline, baseline_path, dumps, from_results, read
 from netgen.regression.diff import Comparison, Tolerance, compare, default_tolerance
 from netgen.model.errors import NetgenError
-from netgen.outputs.report import check_text, write_atomic
+from netgen.outputs.text import check_text
+from netgen.outputs.files import write_atomic
 from netgen.checks.results import Check, Results
 from netgen.model.design import signal_unit
 
@@ -137,12 +140,10 @@ def verify_file(path: Path, settings: dict[str, str], directory: Path | None = N
                 rtol: float | None = None, per_signal: dict[str, float] | None = None,
                 update: bool = False) -> Outcome:
     """Run one design, evaluate its checks, compare with (or, with `update`, write) its baseline."""
-    from netgen.language import load
-
     o = Outcome(Path(path), dict(settings))
     start = time.monotonic()
     try:
-        o.results = load(path, settings).run()
+        o.results = run(load(path, settings))
         attach_baseline(o, directory, rtol, per_signal, update)
     except NetgenError as e:
         o.error = e.render()

@@ -1,25 +1,12 @@
 """What the netlist cannot say exactly (jumps, switches, sampled shapes), and the notes that say so."""
 from __future__ import annotations
 
-from dataclasses import dataclass
-from typing import TYPE_CHECKING
-
 from netgen.model.design import Design
 from netgen.elements import Switch
 from netgen.model.expr import Shape, Wave
 from netgen.solve.signals import signal_texts
 from netgen.spice.netlist import Names
-
-if TYPE_CHECKING:
-    from netgen.spice.crosscheck import Report
-
-
-@dataclass
-class Jump:
-    """An instant where a value jumps; the netlist writes an edge of finite width there."""
-
-    time: float
-    what: str  # e.g. "source drive", "switch key closes"
+from netgen.spice.crosscheck_report import Jump, Report
 
 
 def inputs(d: Design) -> set[str]:

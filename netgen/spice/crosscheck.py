@@ -3,7 +3,6 @@ from __future__ import annotations
 
 import dataclasses
 import math
-from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Callable
 
@@ -16,102 +15,16 @@ from netgen.model.design import Design, Modes
 from netgen.model.signals import parse as parse_signal
 from netgen.solve.signals import SignalEval, signal_texts
 from netgen.spice.resample import Onto, cuts, near, spread
-from netgen.spice.approximations import Jump, inputs, jumps, notes
+from netgen.spice.approximations import inputs, jumps, notes
+from netgen.spice.crosscheck_report import Report, Row, Tolerances
 from netgen.spice.netlist import Names, netlist
 from netgen.spice.raw import Plot, find_plot
 from netgen.spice.simulator import DEFAULT_SIMULATOR, SimulatorError, simulate
 
-DEFAULT_RTOL = 1e-3
 # Around a jump the netlist's edge differs from the ideal jump; in a part of the circuit about
 # as fast as the edge is wide, that difference decays over a few of its time constants, so the
 # window is ten edge widths either side (still a hundredth of an output step).
 WINDOW = 10.0
-
-
-@dataclass(frozen=True)
-class Tolerances:
-    """How far the two results may differ. Transient temperatures: `kelvin` plus rtol times the
-    temperature's swing (they sit near 300 K, so a part relative to their value would be far
-    too loose). Voltages, currents, heat flows: |Δ| ≤ floor·(largest |value| of that kind) +
-    rtol·|y(t)| + `absolute`, and heat flows also `flow_kelvin` times the largest conductance
-    at a node. Steady: both solve the same equations to convergence, so the same form with the
-    much smaller `steady_*` values. `scaled(f)` scales them all."""
-
-    rtol: float = DEFAULT_RTOL  # our solver's default local tolerance is 1e-4; errors accumulate
-    kelvin: float = 5e-3  # a few mK: both solvers keep temperatures to about a millikelvin
-    # A heat flow through links inherits the temperatures' errors: the simulator's are up to
-    # about 0.1-1 mK (its step control is relative to ~300 V), times the conductances there.
-    flow_kelvin: float = 1e-3
-    floor: float = 1e-3  # of the largest |value| of the signal's kind over the run
-    absolute: float = 1e-6  # V, A, W: netgen's own error floors at its default tolerance
-    steady_rtol: float = 1e-6
-    steady_kelvin: float = 1e-6
-    steady_floor: float = 1e-6  # of the largest |value| of the signal's kind in the steady state
-    tiny: float = 1e-9  # SI units: the simulator puts gmin (1e-12 S) across nodes at ~300 V, 0.3 nA
-
-    def scaled(self, f: float) -> "Tolerances":
-        return Tolerances(*(getattr(self, k.name) * f for k in dataclasses.fields(self)))
-
-    @classmethod
-    def from_rtol(cls, rtol: float | None) -> "Tolerances":
-        """`--rtol R` scales every tolerance by R / 1e-3, the default relative part."""
-        return cls() if rtol is None else cls().scaled(rtol / DEFAULT_RTOL)
-
-
-@dataclass
-class Row:
-    """One signal's comparison. `dev`, `rel`, `at`, `tol` describe the worst point (largest
-    |Δ|/tolerance) away from the excused instants (jumps, corners the simulator stepped over);
-    `near` is the largest |Δ| at those."""
-
-    signal: str
-    source: str  # how the simulator's value was obtained
-    dev: float = 0.0
-    rel: float = 0.0
-    at: float | None = None
-    tol: float = 0.0
-    ours: float = math.nan
-    theirs: float = math.nan
-    near: float | None = None
-    passed: bool = True
-    missing: str = ""  # why it could not be compared
-
-    @property
-    def status(self) -> str:
-        return "n/a" if self.missing else ("pass" if self.passed else "FAIL")
-
-
-@dataclass
-class Report:
-    """The comparison of one design: steady rows, transient rows, the jumps, and notes."""
-
-    file: str
-    command: list[str]
-    steady: list[Row] = field(default_factory=list)
-    transient: list[Row] = field(default_factory=list)
-    jumps: list[Jump] = field(default_factory=list)
-    window: float = 0.0  # half-width of the window around each jump, s
-    notes: list[str] = field(default_factory=list)
-    span: tuple[float, float] | None = None
-    missed: list[float] = field(default_factory=list)  # source corners the simulator stepped over
-    points: tuple[int, int] = (0, 0)  # ours, the simulator's
-
-    @property
-    def rows(self) -> list[Row]:
-        return self.steady + self.transient
-
-    @property
-    def passed(self) -> bool:
-        return all(r.passed for r in self.rows)
-
-    @property
-    def failed(self) -> list[str]:
-        return list(dict.fromkeys(r.signal for r in self.rows if not r.passed))
-
-    def table(self) -> str:
-        from netgen.spice.crosscheck_table import render
-
-        return render(self)
 
 
 # ---- running both ------------------------------------------------------------------------------
