@@ -10,9 +10,19 @@ KINDS = tuple(SIGNAL_UNITS)
 _FORM = re.compile(r"\s*([A-Za-z]+)\s*\(\s*([^(),\s]+)\s*(?:,\s*([^(),\s]+)\s*)?\)\s*")
 
 
+def kind_of(signal) -> str:
+    """The kind (T V I Q P) of a signal, given as a Signal or as text; "" for anything else."""
+    if isinstance(signal, Signal):
+        return signal.kind
+    try:
+        return parse(str(signal)).kind
+    except ValueError:
+        return ""
+
+
 def signal_unit(signal) -> str:
     """The SI unit of a signal (a Signal or its text), e.g. `K` for `T(die)`; "" for anything else."""
-    return SIGNAL_UNITS.get(getattr(signal, "kind", None) or str(signal)[:1], "")
+    return SIGNAL_UNITS.get(kind_of(signal), "")
 
 
 @dataclass

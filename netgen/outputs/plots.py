@@ -13,7 +13,7 @@ from netgen.model.expr import SignalRef, evaluate
 from netgen.outputs.text import ZERO_C
 from netgen.outputs.files import write_atomic
 from netgen.checks.results import Results
-from netgen.model.design import signal_unit
+from netgen.model.signals import kind_of, signal_unit
 
 CURVE = "#1f4e9c"  # this run
 BASELINE = "#8c8c8c"  # the stored baseline, dashed
@@ -102,7 +102,7 @@ def series_for(res: Results, base=None) -> list[Series]:
             bt = bv = None
             if base is not None and base.time is not None and s in base.signals:
                 bt, bv = base.time, base.signals[s]
-            out[s] = Series(slug(s), s, signal_unit(s), d.celsius and s.startswith("T("),
+            out[s] = Series(slug(s), s, signal_unit(s), d.celsius and kind_of(s) == "T",
                             res.time, np.asarray(res.waveforms[s], dtype=float), [], bt, bv)
     checks = {id(e): c for e, c in zip(d.expectations, res.checks)}
     for e in d.expectations:
@@ -123,7 +123,7 @@ def series_for(res: Results, base=None) -> list[Series]:
                 except KeyError:
                     pass
             if isinstance(e.expr, SignalRef):  # a signal the design does not record
-                out[key] = Series(slug(key), key, signal_unit(key), d.celsius and key.startswith("T("),
+                out[key] = Series(slug(key), key, signal_unit(key), d.celsius and kind_of(key) == "T",
                                   res.time, np.asarray(y, dtype=float), [], bt, bv)
             else:
                 out[key] = Series(f"expect_line{e.loc.line}" if e.loc else slug(key), key, e.unit, e.celsius,

@@ -10,7 +10,8 @@ import numpy as np
 
 from netgen.checks.results import Results
 from netgen.elements import Thermoelectric
-from netgen.model.design import ELECTRICAL, THERMAL, Design, signal_unit
+from netgen.model.design import ELECTRICAL, THERMAL, Design
+from netgen.model.signals import kind_of, signal_unit
 from netgen.model.errors import NetgenError
 from netgen.solve.assembly import assemble
 from netgen.solve.steady import solve_dc
@@ -65,7 +66,7 @@ def fmt(signal: str, v: float, celsius: bool) -> str:
         return str(v)
     if abs(v) < 1e-20:
         v = 0.0  # round-off around zero (an open circuit's current) reads as zero
-    if signal.startswith("T(") and celsius:
+    if celsius and kind_of(signal) == "T":
         return f"{v:.4f} K ({v - ZERO_C:.3f} °C)"
     return f"{v:.6g} {_unit(signal)}"
 

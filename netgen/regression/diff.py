@@ -4,7 +4,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import numpy as np
-from netgen.model.design import signal_unit
+from netgen.model.signals import kind_of, signal_unit
 
 DEFAULT_RTOL = 1e-3  # of the signal's range in the baseline
 # Absolute floors by kind: a few mK for temperatures (they sit near 300 K, so a share of their
@@ -31,7 +31,7 @@ unit_of = signal_unit
 
 def default_tolerance(signal: str, rtol: float | None = None) -> Tolerance:
     """The default for a signal's kind; `rtol` replaces the default relative part."""
-    return Tolerance(ATOL.get(signal[:1], 1e-9), DEFAULT_RTOL if rtol is None else rtol)
+    return Tolerance(ATOL.get(kind_of(signal), 1e-9), DEFAULT_RTOL if rtol is None else rtol)
 
 
 @dataclass
@@ -108,8 +108,8 @@ def scales(base) -> dict[str, float]:
     steady = base.steady or {}
     if base.time is not None:
         return {s: _spread(np.append(w, [steady[s]] if s in steady else [])) for s, w in base.signals.items()}
-    temps = _spread(v for s, v in steady.items() if s.startswith("T("))
-    return {s: temps if s.startswith("T(") else abs(float(v)) for s, v in steady.items()}
+    temps = _spread(v for s, v in steady.items() if kind_of(s) == "T")
+    return {s: temps if kind_of(s) == "T" else abs(float(v)) for s, v in steady.items()}
 
 
 def resample(tq: np.ndarray, t: np.ndarray, y: np.ndarray) -> np.ndarray:

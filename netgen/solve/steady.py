@@ -7,7 +7,7 @@ import numpy as np
 import scipy.sparse as sp
 import scipy.sparse.linalg as spla
 
-from netgen.solve.assembly import TEMP, System
+from netgen.solve.assembly import TEMP, WATT, System
 from netgen.model.errors import SolveError
 
 MAX_ITER = 60
@@ -20,7 +20,7 @@ ORDERING = "MMD_AT_PLUS_A"
 def _guess(sys: System, t: float) -> np.ndarray:
     x = np.zeros(sys.n)
     b = sys.b(t)
-    temps = [b[k] for name, k in sys.branch_index.items() if sys.names[k].startswith("Q(")]
+    temps = [b[k] for k in sys.branch_index.values() if sys.kinds[k] == WATT]  # reservoir temperatures
     t0 = float(np.mean(temps)) if temps else 300.0
     x[np.array(sys.kinds) == TEMP] = t0
     for i, _, v in sys.start_nodes:

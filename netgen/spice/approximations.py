@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 from netgen.model.design import Design
+from netgen.model.signals import kind_of
 from netgen.elements import Switch
 from netgen.model.expr import Shape, Wave
 from netgen.solve.signals import signal_texts
@@ -98,7 +99,7 @@ def notes(d: Design, nm: Names, rep: Report) -> list[str]:
                        f"t = {_g(rep.span[0])} s): under `uic` it takes its first step without error control, "
                        "so a part of the circuit faster than that step, set off its equilibrium by `start` "
                        "values, is not followed there.")
-    cold = [r.signal for r in rep.steady if r.signal.startswith("T(") and r.theirs < 0]
+    cold = [r.signal for r in rep.steady if kind_of(r.signal) == "T" and r.theirs < 0]
     if cold:
         out.append(f"the simulator's steady state puts {', '.join(cold)} below absolute zero: its Newton "
                    "iteration found another root of the same equations, not a physical state.")

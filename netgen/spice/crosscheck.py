@@ -12,7 +12,7 @@ from netgen.solve.assembly import System, assemble
 from netgen.analyses import run
 from netgen.checks.results import Results
 from netgen.model.design import Design, Modes
-from netgen.model.signals import parse as parse_signal
+from netgen.model.signals import kind_of, parse as parse_signal
 from netgen.solve.signals import SignalEval, signal_texts
 from netgen.spice.resample import Onto, cuts, near, spread
 from netgen.spice.approximations import inputs, jumps, notes
@@ -111,7 +111,8 @@ def _relative(dev: float, y: float, tol: float) -> float:
 
 
 def _kind(signal: str) -> str:
-    return "T" if signal.startswith("T(") else ("Q" if signal[0] in "QP" else signal[0])
+    kind = kind_of(signal)
+    return "Q" if kind in ("Q", "P") else kind  # heat flows and powers share one scale: both W
 
 
 # ---- steady state --------------------------------------------------------------------------------
@@ -187,7 +188,7 @@ def _transient(d, sys, nm, ours: Results, plot: Plot, tol: Tolerances, rep: Repo
             limit = np.full_like(y, tol.kelvin + tol.rtol * float(np.ptp(y)))
         else:
             limit = tol.floor * sizes[_kind(s)] + tol.rtol * np.abs(y) + tol.absolute
-            if s.startswith("Q("):
+            if kind_of(s) == "Q":
                 limit = limit + tol.flow_kelvin * g_max
         # Zero except within a jump's window and between the points around a skipped corner.
         allowed = limit + np.maximum(spread(t, y, ts, ysim, times, rep.window), onto.movement(ysim))
