@@ -8,10 +8,12 @@ from __future__ import annotations
 
 from netgen.elements.base import THERMAL_REF, EnergyTerm, Kind, TwoTerminal
 from netgen.elements.capacitor import Capacitor
+from netgen.elements.convection import Convection
 from netgen.elements.fixed import Fixed
 from netgen.elements.heat import Heat
 from netgen.elements.inductor import Inductor
 from netgen.elements.link import Link
+from netgen.elements.radiation import Radiation
 from netgen.elements.resistor import Resistor, Tempco
 from netgen.elements.source import CurrentSource, VoltageSource
 from netgen.elements.switch import Switch
@@ -20,6 +22,7 @@ from netgen.elements.thermoelectric import Thermoelectric
 # In the order their branch unknowns and stamps are laid out.
 KINDS: tuple[type[Kind], ...] = (
     Link, Heat, Fixed, Resistor, Capacitor, Inductor, VoltageSource, CurrentSource, Switch, Thermoelectric,
+    Radiation, Convection,
 )
 
 # Statement keyword → the function that reads it (kinds sharing a statement share its reader).

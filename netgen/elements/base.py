@@ -26,7 +26,11 @@ import numpy as np
 
 from netgen.model.calculus import compiled, derivative
 from netgen.model.design import Element
-from netgen.model.expr import Const, Expr, Wave
+from netgen.model.expr import Const, Expr, Var, Wave
+
+# The temperatures of an element's two ends in its equations, and their mean.
+TA, TB = Var("Ta"), Var("Tb")
+MEAN = 0.5 * (TA + TB)
 
 THERMAL_REF = "<absolute zero>"  # the other end of masses, reservoirs and heat inputs
 _I = np.int64

@@ -19,14 +19,13 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from netgen.elements.base import Equations, Kind
+from netgen.elements.base import MEAN, TA, TB, Equations, Kind
 from netgen.model import units as U
-from netgen.model.calculus import evaluate_with, substitute
+from netgen.model.calculus import evaluate_with, split_scale, substitute
 from netgen.model.design import ELECTRICAL, THERMAL
 from netgen.model.expr import Binary, Const, Expr, Var, evaluate
 
-TA, TB, CURRENT = Var("Ta"), Var("Tb"), Var("I")
-MEAN = 0.5 * (TA + TB)
+CURRENT = Var("I")
 
 
 def equations(S: Expr, R: Expr, K: Expr) -> tuple[Expr, Expr, Expr]:
@@ -142,7 +141,7 @@ class Thermoelectric(Kind):
         # one material with its expressions, each scaled by the module's own factors.
         groups: dict = defaultdict(list)
         for i, e in enumerate(batch):
-            key = "lumped" if e.props is None else tuple(_split_scale(x)[1] for x in e.props)
+            key = "lumped" if e.props is None else tuple(split_scale(x)[1] for x in e.props)
             groups[key].append(i)
         for key, members in groups.items():
             m = np.array(members)
@@ -153,7 +152,7 @@ class Thermoelectric(Kind):
                           "K": st.values([batch[i] for i in members], "conductance")}
             else:
                 S, R, K = (Var(f) * substitute(x, {"T": MEAN}) for f, x in zip(("fS", "fR", "fK"), key))
-                factors = np.array([[_split_scale(x)[0] for x in batch[i].props] for i in members]).T
+                factors = np.array([[split_scale(x)[0] for x in batch[i].props] for i in members]).T
                 params = dict(zip(("fS", "fR", "fK"), factors))
             volt, heat_a, heat_b = equations(S, R, K)
             st.equations(Equations([(k[m], -volt), (a[m], heat_a), (b[m], -heat_b)],
@@ -190,13 +189,6 @@ class Thermoelectric(Kind):
                            (f"bteqb_{s}", f"Q({self.name}.b): heat given to {self.b}")):
             w.row(name, f"thermoelectric {self.name}: {what}")
         w.signal(f"I({self.name})", f"I({sense})")
-
-
-def _split_scale(e):
-    """`c * expr` → (c, expr); anything else → (1, expr). Modules of one material share the expr."""
-    if isinstance(e, Binary) and e.op == "*" and isinstance(e.a, Const):
-        return e.a.v, e.b
-    return 1.0, e
 
 
 def _read_couples(r, e: Thermoelectric, at) -> None:

@@ -579,7 +579,8 @@ def check_signal(d: Design, kind: str, names: tuple[str, ...]) -> None:
     if kind == "Q" and "Q" not in e.signals:
         hint = (f"write Q({name}.{e.sides[0]}) or Q({name}.{e.sides[1]})" if e.sides
                 else f"write I({name}) or P({name})")
-        raise ValueError(f"`Q({name})` needs a link, a heat input or a reservoir", hint)
+        carriers = ", ".join(f"`{k.statement}`" for k in KINDS if "Q" in k.signals)
+        raise ValueError(f"`Q({name})` needs an element that carries heat: {carriers}", hint)
 
 
 def _unit_hint(word: str) -> str:

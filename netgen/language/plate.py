@@ -10,6 +10,10 @@ the plate's boundary, joined to the cells along them through half a cell (`NAME.
 an edge exists only when another statement names it, since an edge node left on its own would
 tie the cells along it together as if a bar were clamped there.
 
+The conductivity K (or the conductances G, G2) may be an expression of the temperature `T`, as
+a material's properties may: each link then follows the mean temperature of its two ends. The
+heat capacity (C, or RHO and CP) stays constant, since the solver's C matrix is.
+
 The plate expands into ordinary `Node`s and `Link`s in the Design, so every later stage (the
 checks, the assembler, the signals, the netlist) sees the hand-written equivalent.
 """
@@ -21,13 +25,16 @@ from dataclasses import dataclass
 
 from netgen.model import units as U
 from netgen.model.design import THERMAL, Loc, Node
+from netgen.model.expr import Expr, evaluate, times
 from netgen.elements import Link
+from netgen.elements.link import REPORT_T, law_at, read_law
 from netgen.model.errors import NetgenError
 
 EDGES = ("left", "right", "top", "bottom")
 MAX_CELLS = 4_000_000  # 4e6 cells is several GB of model; more is surely a typing slip
 MATERIAL = ("cell", "thickness", "density", "specific_heat", "conductivity")
 PER_CELL = ("capacity", "conductance")
+HEAT_CAPACITY = ("density", "specific_heat", "capacity")  # constant: the solver's C matrix is
 _WORDS = {"specific_heat": "specific heat"}
 _CELL = re.compile(r"r([0-9]+)c([0-9]+)")
 
@@ -42,6 +49,8 @@ class Layout:
     g_row: float  # between neighbours in a row (column to column), W/K
     g_col: float  # between neighbours in a column (row to row), W/K
     loc: Loc
+    law_row: Expr | None = None  # g_row as an expression of `T` (then g_row is its value at 300 K)
+    law_col: Expr | None = None
 
     def cell(self, i: int, j: int) -> str:
         return f"{self.name}.r{i}c{j}"
@@ -84,6 +93,32 @@ def _count(el, tree, what: str) -> int:
     return int(v)
 
 
+def _constant(el, key: str, tree, dim, what: str) -> float:
+    """A positive constant attribute, with a plain word for one written as an expression of `T`."""
+    if "T" not in el.params:  # a parameter `T` keeps its meaning here
+        rd = el.reader()
+        rd.variables = {"T": U.TEMPERATURE}
+        if rd.read(tree).expr.uses_vars:
+            word = _WORDS.get(key, key)
+            if key in HEAT_CAPACITY:
+                raise el.err(tree, f"a plate's heat capacity is constant: `{word}` may not depend on the "
+                             "temperature `T`",
+                             "the solver's heat capacities are constants (its C matrix does not change with "
+                             "temperature), so only the conductivity (or `conductance`) may follow `T`; give "
+                             "the value at the plate's working temperature")
+            raise el.err(tree, f"`{word}` may not depend on the temperature `T`",
+                         "only a plate's conductivity (or `conductance`) may follow `T`")
+    return el.const(tree, dim, what, positive=True)
+
+
+def _conductance(el, tree, dim, what: str, example: str) -> tuple[float, Expr | None]:
+    """A conductivity or conductance, constant or an expression of `T`: (value, law or None)."""
+    typed = read_law(el, tree, (dim,), what, example)
+    if not typed.expr.uses_vars:
+        return el.const(tree, dim, what, positive=True), None
+    return float(evaluate(typed.expr, T=REPORT_T)), typed.expr  # the caller checks it, scaled, at 300 K
+
+
 def elaborate(el, t) -> None:
     """Expand a `plate` statement into masses and links on the Elaborator's Design."""
     name_tok, rows_t, cols_t, attrs_t = t.children
@@ -107,32 +142,44 @@ def elaborate(el, t) -> None:
         missing = [k for k in PER_CELL if k not in at]
         if missing:
             raise el.err(name_tok, f"plate `{name}` needs `{missing[0]}` too", example)
-        cap = el.const(at["capacity"].children[0], U.HEAT_CAPACITY, "a cell's heat capacity", positive=True)
+        cap = _constant(el, "capacity", at["capacity"].children[0], U.HEAT_CAPACITY, "a cell's heat capacity")
         g1_t, g2_t = at["conductance"].children
-        g_row = el.const(g1_t, U.THERMAL_CONDUCTANCE, "a conductance between cells", positive=True)
-        g_col = el.const(g2_t, U.THERMAL_CONDUCTANCE, "a conductance between cells", positive=True) \
-            if g2_t is not None else g_row
+        eg = "e.g. `conductance 0.3 W/K * (1 - 0.001 * (T - 300 K) / 1 K)`"
+        g_row, law_row = _conductance(el, g1_t, U.THERMAL_CONDUCTANCE, "a conductance between cells", eg)
+        g_col, law_col = _conductance(el, g2_t, U.THERMAL_CONDUCTANCE, "a conductance between cells", eg) \
+            if g2_t is not None else (g_row, law_row)
+        tree_row, tree_col = g1_t, g2_t if g2_t is not None else g1_t
     elif material:
         missing = [_WORDS.get(k, k) for k in MATERIAL if k not in at]
         if missing:
             raise el.err(name_tok, f"plate `{name}` needs {', '.join('`' + m + '`' for m in missing)}", example)
         w_t, h_t = at["cell"].children
-        width = el.const(w_t, U.LENGTH, "a cell width", positive=True)
-        height = el.const(h_t, U.LENGTH, "a cell height", positive=True) if h_t is not None else width
-        thick = el.const(at["thickness"].children[0], U.LENGTH, "a thickness", positive=True)
-        rho = el.const(at["density"].children[0], U.DENSITY, "a density", positive=True)
-        cp = el.const(at["specific_heat"].children[0], U.SPECIFIC_HEAT, "a specific heat", positive=True)
-        k = el.const(at["conductivity"].children[0], U.CONDUCTIVITY, "a thermal conductivity", positive=True)
+        width = _constant(el, "cell", w_t, U.LENGTH, "a cell width")
+        height = _constant(el, "cell", h_t, U.LENGTH, "a cell height") if h_t is not None else width
+        thick = _constant(el, "thickness", at["thickness"].children[0], U.LENGTH, "a thickness")
+        rho = _constant(el, "density", at["density"].children[0], U.DENSITY, "a density")
+        cp = _constant(el, "specific_heat", at["specific_heat"].children[0], U.SPECIFIC_HEAT, "a specific heat")
+        k_t = at["conductivity"].children[0]
+        k, law = _conductance(el, k_t, U.CONDUCTIVITY, "a thermal conductivity",
+                              "e.g. `conductivity 200 W/(m*K) * (1 - 0.0005 * (T - 300 K) / 1 K)`")
         cap = rho * cp * width * height * thick
-        g_row = k * thick * height / width  # across the face between two cells side by side
-        g_col = k * thick * width / height
+        s_row, s_col = thick * height / width, thick * width / height
+        g_row = k * s_row  # across the face between two cells side by side
+        g_col = k * s_col
+        law_row = times(s_row, law) if law is not None else None
+        law_col = times(s_col, law) if law is not None else None
+        tree_row = tree_col = k_t
     else:
         raise el.err(name_tok, f"plate `{name}` needs its material or its per-cell values", example)
+    if law_row is not None:
+        g_row = law_at(el, tree_row, law_row, "the conductance between cells side by side")
+    if law_col is not None:
+        g_col = law_at(el, tree_col, law_col, "the conductance between cells one above the other")
     start = None
     if "start" in at:
-        start = el.const(at["start"].children[0], U.TEMPERATURE, "a start temperature", positive=True)
+        start = _constant(el, "start", at["start"].children[0], U.TEMPERATURE, "a start temperature")
 
-    lay = Layout(name, rows, cols, g_row, g_col, loc)
+    lay = Layout(name, rows, cols, g_row, g_col, loc, law_row, law_col)
     _cells(el, lay, cap, start)
     _links(el, lay)
     layouts(el).append(lay)
@@ -157,7 +204,7 @@ def _cells(el, lay: Layout, cap: float, start: float | None) -> None:
             n.capacity, n.start, n.loc = cap, start, lay.loc
 
 
-def _add_links(el, lay: Layout, triples: list[tuple[str, str, str]], g: float) -> None:
+def _add_links(el, lay: Layout, triples: list[tuple[str, str, str]], g: float, law: Expr | None) -> None:
     taken = el.element_locs.keys() & {t[0] for t in triples}
     if taken:
         first = min(taken)
@@ -165,7 +212,7 @@ def _add_links(el, lay: Layout, triples: list[tuple[str, str, str]], g: float) -
                           f"link of plate `{lay.name}`", lay.loc, "rename the element or the plate")
     loc = lay.loc
     el.element_locs.update((t[0], loc) for t in triples)
-    el.design.elements.extend(Link(nm, loc, a=a, b=b, conductance=g) for nm, a, b in triples)
+    el.design.elements.extend(Link(nm, loc, a=a, b=b, conductance=g, law=law) for nm, a, b in triples)
 
 
 def _links(el, lay: Layout) -> None:
@@ -174,8 +221,8 @@ def _links(el, lay: Layout) -> None:
              for i in range(1, R + 1) for j in range(1, C)]
     down = [(f"{p}.r{i}c{j}_r{i + 1}c{j}", f"{p}.r{i}c{j}", f"{p}.r{i + 1}c{j}")
             for i in range(1, R) for j in range(1, C + 1)]
-    _add_links(el, lay, along, lay.g_row)
-    _add_links(el, lay, down, lay.g_col)
+    _add_links(el, lay, along, lay.g_row, lay.law_row)
+    _add_links(el, lay, down, lay.g_col, lay.law_col)
 
 
 def finish(el) -> None:
@@ -195,10 +242,12 @@ def finish(el) -> None:
                 el.errors.append(NetgenError(f"`{node.name}` is an edge of plate `{p.name}`, a thermal node, but "
                                              "is used here as electrical", node.loc))
                 continue
-            g = 2.0 * (p.g_row if edge in ("left", "right") else p.g_col)  # cell centre to the edge: half a cell
+            across = edge in ("left", "right")
+            g = 2.0 * (p.g_row if across else p.g_col)  # cell centre to the edge: half a cell
+            law = p.law_row if across else p.law_col
             triples = [(f"{p.cell(i, j)}_{edge}", p.cell(i, j), node.name) for i, j in p.edge_cells(edge)]
             try:
-                _add_links(el, p, triples, g)
+                _add_links(el, p, triples, g, times(2.0, law) if law is not None else None)
             except NetgenError as e:
                 el.errors.append(e)
     for n in nodes.values():

@@ -31,6 +31,27 @@ def substitute(e: Expr, values: dict[str, Expr]) -> Expr:
     return e
 
 
+def split_scale(e: Expr) -> tuple[float, Expr]:
+    """`e` as c·rest, the constant factors of its top products and quotients taken out, so that
+    links of one law and different sizes (a plate's cells, its half-cell edges) share `rest`."""
+    if isinstance(e, Unary):
+        c, rest = split_scale(e.a)
+        return -c, rest
+    if isinstance(e, Binary) and e.op in ("*", "/"):
+        ca, ra = split_scale(e.a)
+        if isinstance(e.b, Const) and e.b.v != 0:
+            return (ca * e.b.v if e.op == "*" else ca / e.b.v), ra
+        cb, rb = split_scale(e.b)
+        if cb == 0:
+            return 1.0, e
+        if e.op == "*":
+            return ca * cb, times(ra, rb)
+        return ca / cb, over(ra, rb)
+    if isinstance(e, Const):
+        return e.v, Const(1.0)
+    return 1.0, e
+
+
 def derivative(e: Expr, var: str) -> Expr:
     """The exact derivative of `e` with respect to the variable `var` (chain rule, simplified)."""
     d = lambda x: derivative(x, var)

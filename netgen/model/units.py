@@ -72,6 +72,7 @@ PER_KELVIN = _d(K=-1)
 MASS = _d(kg=1)
 DENSITY = MASS / LENGTH**3
 SPECIFIC_HEAT = HEAT_CAPACITY / MASS
+HEAT_TRANSFER_COEFFICIENT = POWER / (AREA * TEMPERATURE)
 
 # Unit symbols of the language and their SI factor and dimension.
 SYMBOLS: dict[str, tuple[float, Dim]] = {
@@ -219,6 +220,7 @@ _NAMES: list[tuple[Dim, str]] = [
     (THERMAL_CONDUCTANCE, "W/K"), (THERMAL_RESISTANCE, "K/W"), (SEEBECK, "V/K"),
     (LENGTH, "m"), (AREA, "m^2"), (RESISTIVITY, "ohm*m"), (CONDUCTIVITY, "W/(m*K)"),
     (PER_KELVIN, "1/K"), (MASS, "kg"), (DENSITY, "kg/m^3"), (SPECIFIC_HEAT, "J/(kg*K)"),
+    (HEAT_TRANSFER_COEFFICIENT, "W/(m^2*K)"),
     (VOLTAGE / TIME, "V/s"), (CURRENT / TIME, "A/s"),
     (TEMPERATURE / TIME, "K/s"), (POWER / TIME, "W/s"), (ENERGY / TEMPERATURE**2, "J/K^2"),
 ]
