@@ -6,9 +6,12 @@ import subprocess
 import sys
 from pathlib import Path
 
+import pytest
+
 SCRIPT = Path(__file__).resolve().parents[1] / "benchmarks" / "run.py"
 
 
+@pytest.mark.slow
 def test_benchmark_script_runs_at_the_smallest_size(tmp_path):
     r = subprocess.run([sys.executable, str(SCRIPT), "--sizes", "10", "--steps", "20", "--nonlinear", "10",
                         "--work", str(tmp_path / "work"), "--json", str(tmp_path / "bench.json")],

@@ -1,28 +1,80 @@
-"""The commands end to end: exit codes, located errors, written files."""
+"""The commands end to end: exit codes, located errors, written files. They run `main(argv)` in
+this process; `test_the_installed_command_as_a_process` runs the real command, for packaging."""
 import csv
 import json
+import shutil
 import subprocess
 import sys
 from pathlib import Path
+from typing import NamedTuple
 
 import pytest
+
+from netgen.cli import main
 
 ROOT = Path(__file__).resolve().parents[1]
 COOLER = ROOT / "examples" / "detector_cooler.etn"
 
 
-def netgen(*args, cwd=None):
-    return subprocess.run([sys.executable, "-m", "netgen.cli", *map(str, args)],
-                          capture_output=True, text=True, cwd=cwd, timeout=120)
+class Ran(NamedTuple):
+    returncode: int
+    stdout: str
+    stderr: str
 
 
-def test_check_prints_counts():
+@pytest.fixture
+def netgen(capsys):
+    """`netgen ARGS...` in-process: the exit code (argparse's own errors leave through SystemExit,
+    as they do from the installed command) and what was printed to stdout and stderr."""
+    def run(*args):
+        try:
+            code = main([str(a) for a in args])
+        except SystemExit as e:
+            code = e.code
+        out = capsys.readouterr()
+        return Ran(code, out.out, out.err)
+    return run
+
+
+def _installed_netgen() -> str:
+    """The `netgen` script pip installed beside this Python (the project's entry point)."""
+    exe = shutil.which("netgen", path=str(Path(sys.executable).parent)) or shutil.which("netgen")
+    if exe is None:
+        pytest.fail("no `netgen` command beside the Python running the tests: install the project "
+                    "(python -m pip install -e \".[test]\")")
+    return exe
+
+
+def test_the_installed_command_as_a_process(tmp_path):
+    """Packaging: the installed `netgen` entry point and `python -m netgen.cli` run as processes;
+    exit codes 0 and 2, results on stdout, errors on stderr and nothing else on either. (The
+    `python -m` runs are the ones that exit before reading a design: each full run costs a second.)"""
+    def process(*argv):
+        return subprocess.run([*map(str, argv)], capture_output=True, text=True, timeout=120)
+
+    netgen_exe = _installed_netgen()
+    ok = process(netgen_exe, "check", COOLER)
+    assert ok.returncode == 0, ok.stderr
+    assert "nodes: 6" in ok.stdout and "error" not in ok.stderr
+    bad = tmp_path / "bad.etn"
+    bad.write_text("mass m 1 J/K\nlnk l m r 1 W/K\n")
+    r = process(netgen_exe, "check", bad)
+    assert r.returncode == 2 and r.stdout == ""
+    assert "bad.etn:2:1: error:" in r.stderr and "did you mean `link`" in r.stderr and "Traceback" not in r.stderr
+    version = process(sys.executable, "-m", "netgen.cli", "--version")
+    assert version.returncode == 0 and version.stdout.startswith("netgen ") and version.stderr == ""
+    for exe in ([netgen_exe], [sys.executable, "-m", "netgen.cli"]):
+        usage = process(*exe, "frobnicate", COOLER)
+        assert usage.returncode == 2 and usage.stdout == "" and "invalid choice" in usage.stderr
+
+
+def test_check_prints_counts(netgen):
     r = netgen("check", COOLER)
     assert r.returncode == 0, r.stderr
     assert "nodes: 6" in r.stdout and "elements: 6" in r.stdout
 
 
-def test_run_writes_csv_and_summary(tmp_path):
+def test_run_writes_csv_and_summary(netgen, tmp_path):
     r = netgen("run", COOLER, "--out", tmp_path)
     assert r.returncode == 0, r.stderr
     rows = list(csv.reader(open(tmp_path / "transient.csv")))
@@ -35,7 +87,7 @@ def test_run_writes_csv_and_summary(tmp_path):
     assert "T(die)" in summary["transient"]
 
 
-def test_set_overrides_a_parameter(tmp_path):
+def test_set_overrides_a_parameter(netgen, tmp_path):
     f = tmp_path / "p.etn"
     f.write_text("let P = 1 W\nmass m 1 J/K\nfixed r 300 K\nheat h m P\nlink l m r 2 W/K\nsteady\n")
     r = netgen("run", f, "--set", "P=3W", "--out", tmp_path)
@@ -47,7 +99,7 @@ def test_set_overrides_a_parameter(tmp_path):
     assert unknown.returncode == 2 and "no parameter `Q`" in unknown.stderr
 
 
-def test_failed_expectation_exits_1(tmp_path):
+def test_failed_expectation_exits_1(netgen, tmp_path):
     f = tmp_path / "e.etn"
     f.write_text("mass m 1 J/K\nfixed r 300 K\nheat h m 1 W\nlink l m r 2 W/K\nsteady\n"
                  "expect steady T(m) < 300.2 K\n")
@@ -67,7 +119,7 @@ def test_failed_expectation_exits_1(tmp_path):
     ("mass m 1 J/K\nfixed r 300 K\nlink l m r 1 W/K\nrecord T(q)\n", 4, 8, "unknown node `q`"),
     ("ground g\nresistor m a g 1 ohm\nmass a 1 J/K\n", 3, 6, "is electrical"),
 ])
-def test_errors_are_located_and_exit_2(tmp_path, text, line, col, fragment):
+def test_errors_are_located_and_exit_2(netgen, tmp_path, text, line, col, fragment):
     f = tmp_path / "bad.etn"
     f.write_text(text)
     r = netgen("check", f)
@@ -77,7 +129,7 @@ def test_errors_are_located_and_exit_2(tmp_path, text, line, col, fragment):
     assert "^" in r.stderr and "Traceback" not in r.stderr
 
 
-def test_missing_file_and_bad_bytes(tmp_path):
+def test_missing_file_and_bad_bytes(netgen, tmp_path):
     r = netgen("check", tmp_path / "none.etn")
     assert r.returncode == 2 and "cannot read" in r.stderr
     f = tmp_path / "latin.etn"
@@ -86,7 +138,7 @@ def test_missing_file_and_bad_bytes(tmp_path):
     assert r.returncode == 2 and "latin.etn:2:6" in r.stderr and "UTF-8" in r.stderr
 
 
-def test_matrices_are_matrix_market(tmp_path):
+def test_matrices_are_matrix_market(netgen, tmp_path):
     import scipy.io
 
     r = netgen("matrices", COOLER, "-o", tmp_path)
@@ -99,7 +151,7 @@ def test_matrices_are_matrix_market(tmp_path):
     assert C.toarray()[i, i] == pytest.approx(0.45)
 
 
-def test_no_command_is_usage_error():
+def test_no_command_is_usage_error(netgen):
     r = netgen()
     assert r.returncode == 2
     r = netgen("frobnicate", COOLER)

@@ -561,6 +561,7 @@ KNOWN = {
 }
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize("seed", [pytest.param(k, marks=pytest.mark.xfail(reason=KNOWN[k], strict=True))
                                   if k in KNOWN else k for k in range(100)])
 def test_random_networks_agree(ngspice, seed):
@@ -650,9 +651,15 @@ def test_simulators_first_step_is_named(ngspice):
 def test_corner_at_a_tiny_time():
     """Found by the property test: a corner at 1e-65 s once collapsed the step size; corners that
     close to the start are now taken as at the start."""
-    netgen.load("fixed f 290 K\nmass m 1 J/K\nlink k m f 1 W/K\nground g\n"
-                "resistor r e g 1 ohm heats m\nsource i g e step(0 A, 0 A, 1e-65 s)\n"
-                "transient until 20 s step 0.1 s\n").run()
+    text = ("fixed f 290 K\nmass m 1 J/K\nlink k m f 1 W/K\nground g\n"
+            "resistor r e g 1 ohm heats m\nsource i g e step(0 A, 0 A, 1e-65 s)\n"
+            "transient until 20 s step 0.1 s\n")
+    res = netgen.load(text).run()
+    at_start = netgen.load(text.replace("1e-65 s", "0 s")).run()
+    assert res.time[-1] == pytest.approx(20.0)
+    # The steps are those of the same corner at t = 0, none collapsed towards 1e-65 s.
+    assert np.array_equal(res.time, at_start.time) and res.stats == at_start.stats
+    assert res.time[1] > 1e-6 and res.stats["rejected"] == 0
 
 
 # Found by the property test: across the fall of i1's pulse (4.935 s to 5.043 s) netgen stores,

@@ -20,6 +20,7 @@ from netgen.language import plate
 from netgen.language.grammar import parser, paused_gc
 from netgen.language.parts import PartDef, PartsMixin  # noqa: F401
 from netgen.language.expressions import ExprReader, SIGNAL_KINDS, Typed
+from netgen.language.overrides import Overrides
 from netgen.solve.topology import check_design  # the structural checks run on the finished model
 
 MAX_ERRORS = 20
@@ -67,7 +68,7 @@ class Elaborator(PartsMixin):
         self.text = text
         self.lines = text.splitlines()  # of the file being read now (changes inside includes)
         self.file = filename
-        self.overrides = dict(overrides)
+        self.overrides = Overrides(overrides)
         self.used_overrides: set[str] = set()
         self.params: dict[str, Typed] = {}
         self.param_locs: dict[str, Loc] = {}
@@ -113,7 +114,7 @@ class Elaborator(PartsMixin):
         for name in sorted(unused):
             close = difflib.get_close_matches(name, list(self.params), n=1)
             self.errors.append(NetgenError(
-                f"--set {name}: the design has no parameter `{name}`",
+                f"{self.overrides.flag} {name}: the design has no parameter `{name}`",
                 None, f"did you mean `{close[0]}`?" if close else "only names defined with `let` can be set",
             ))
         if self.errors:
@@ -309,21 +310,7 @@ class Elaborator(PartsMixin):
             typed = given
         elif not in_part and name in self.overrides:
             self.used_overrides.add(name)
-            text = self.overrides[name]
-            try:
-                otree = parser().parse(text, start="expr")
-            except UnexpectedInput:
-                raise NetgenError(f"--set {name}={text}: cannot read the value", None,
-                                  "write a number with its unit, e.g. --set I_drive=1.5A") from None
-            try:
-                otyped = ExprReader(self.params, lambda _t: Loc("--set", 1, 1, text)).read(otree)
-            except NetgenError as e:
-                raise NetgenError(f"--set {name}={text}: {e.message}", None, e.hint) from None
-            if otyped.dim != typed.dim:
-                raise NetgenError(
-                    f"--set {name}={text}: `{name}` is in {U.unit_name(typed.dim)}, the value given is in "
-                    f"{U.unit_name(otyped.dim)}", None)
-            typed = otyped
+            typed = self.overrides.read(name, typed, self.params)  # netgen/language/overrides.py
         self.params[name] = typed
         self.param_locs[name] = self.loc(name_tok)
         if in_part:
