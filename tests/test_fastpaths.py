@@ -10,6 +10,7 @@ import pytest
 from lark import Token, Tree
 
 import netgen
+from conftest import jacobian_by_differences
 from netgen.solve.steady import solve_dc
 from netgen.solve.transient import integrate
 from netgen.solve.assembly import System, assemble
@@ -143,14 +144,7 @@ def test_assembled_jacobian_matches_finite_differences():
     x = solve_dc(sys, 0.0, impose=True)
     state = sys.switch_state(0.0)
     J = sys.J(x, state).toarray()
-    F = lambda y: sys.F(y, 0.0, state)
-    num = np.zeros_like(J)
-    for j in range(sys.n):
-        h = 1e-6 * max(1.0, abs(x[j]))
-        e = np.zeros(sys.n)
-        e[j] = h
-        num[:, j] = (F(x + e) - F(x - e)) / (2 * h)
-    np.testing.assert_allclose(J, num, rtol=1e-5, atol=1e-6)
+    np.testing.assert_allclose(J, jacobian_by_differences(sys, x, state), rtol=1e-5, atol=1e-6)
     M = sys.matrix(1.0, 0.3, x, state).toarray()
     np.testing.assert_allclose(M, sys.C.toarray() + 0.3 * J, rtol=1e-12, atol=1e-12)
 

@@ -7,6 +7,7 @@ import numpy as np
 import pytest
 
 import netgen
+from conftest import jacobian_by_differences
 from netgen.cli import main
 from netgen.solve.assembly import assemble
 from netgen.solve.steady import solve_dc
@@ -160,14 +161,7 @@ def test_assembled_jacobian_matches_finite_differences():
     x = solve_dc(sys, 0.0, impose=True) + np.random.default_rng(3).normal(0, 5.0, sys.n)
     state = sys.switch_state(0.0)
     J = sys.J(x, state).toarray()
-    F = lambda y: sys.F(y, 0.0, state)
-    num = np.zeros_like(J)
-    for j in range(sys.n):
-        h = 1e-6 * max(1.0, abs(x[j]))
-        e = np.zeros(sys.n)
-        e[j] = h
-        num[:, j] = (F(x + e) - F(x - e)) / (2 * h)
-    np.testing.assert_allclose(J, num, rtol=1e-6, atol=1e-7)
+    np.testing.assert_allclose(J, jacobian_by_differences(sys, x, state), rtol=1e-6, atol=1e-7)
     # The temperature dependence is in J: it differs from the conductances at 300 K.
     assert np.abs(J - sys.G0.toarray()).max() > 1e-3
 

@@ -25,7 +25,7 @@ from typing import ClassVar
 import numpy as np
 
 from netgen.model.calculus import compiled, derivative
-from netgen.model.design import Element
+from netgen.model.design import THERMAL, Element
 from netgen.model.expr import Const, Expr, Var, Wave
 
 # The temperatures of an element's two ends in its equations, and their mean.
@@ -98,6 +98,19 @@ class Kind(Element):
 
     def netlist(self, w, stem: str) -> None:  # pragma: no cover - every kind has its own
         raise NotImplementedError
+
+
+def read_between(r, t, statement: str, allowed: tuple[str, ...], required: tuple[str, ...], hint: str):
+    """`STATEMENT NAME A B ATTRIBUTES` between two thermal nodes: the element's name, its nodes and
+    its attributes, with a located error naming the required ones that are missing."""
+    name_tok, a, b, attrs = t.children
+    name = r.element_name(name_tok)
+    na, nb = r.node(a, THERMAL), r.node(b, THERMAL)
+    at = r.attrs(attrs, allowed, statement)
+    missing = [k for k in required if k not in at]
+    if missing:
+        raise r.err(name_tok, f"{statement} `{name}` needs " + " and ".join(f"`{m}`" for m in missing), hint)
+    return name, r.loc(name_tok), na, nb, at
 
 
 @dataclass

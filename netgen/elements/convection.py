@@ -22,10 +22,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from netgen.elements.base import TA, TB, Equations, TwoTerminal
+from netgen.elements.base import TA, TB, Equations, TwoTerminal, read_between
 from netgen.model import units as U
 from netgen.model.calculus import evaluate_with
-from netgen.model.design import THERMAL
 from netgen.model.expr import Const, Func, Var
 
 COEFFICIENT = U.HEAT_TRANSFER_COEFFICIENT  # W/(m²·K)
@@ -64,14 +63,9 @@ class Convection(TwoTerminal):
 
     @staticmethod
     def read(r, t) -> None:
-        name_tok, a, b, attrs = t.children
-        name = r.element_name(name_tok)
-        na, nb = r.node(a, THERMAL), r.node(b, THERMAL)
-        at = r.attrs(attrs, ("coefficient", "area", "exponent"), "convection")
-        missing = [k for k in ("coefficient", "area") if k not in at]
-        if missing:
-            raise r.err(name_tok, f"convection `{name}` needs " + " and ".join(f"`{m}`" for m in missing),
-                        f"give the surface: `coefficient 10 {COEFFICIENT_UNIT}  area 0.01 m^2` (and `exponent N`)")
+        name, loc, na, nb, at = read_between(
+            r, t, "convection", ("coefficient", "area", "exponent"), ("coefficient", "area"),
+            f"give the surface: `coefficient 10 {COEFFICIENT_UNIT}  area 0.01 m^2` (and `exponent N`)")
         h = _coefficient(r, at["coefficient"].children[0])
         area = r.const(at["area"].children[0], U.AREA, "a convection area", positive=True)
         n = None
@@ -80,7 +74,7 @@ class Convection(TwoTerminal):
             if not r.typed(tree).dim.dimensionless:
                 raise r.err(tree, "a convection exponent is a plain number", "write e.g. `exponent 0.25`")
             n = r.const(tree, U.NONE, "a convection exponent", nonneg=True)
-        r.design.elements.append(Convection(name, r.loc(name_tok), a=na, b=nb, coefficient=h, area=area,
+        r.design.elements.append(Convection(name, loc, a=na, b=nb, coefficient=h, area=area,
                                             exponent=n))
 
     @property

@@ -15,10 +15,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from netgen.elements.base import TA, TB, Equations, TwoTerminal
+from netgen.elements.base import TA, TB, Equations, TwoTerminal, read_between
 from netgen.model import units as U
 from netgen.model.calculus import evaluate_with
-from netgen.model.design import THERMAL
 from netgen.model.expr import Var
 
 SIGMA = 5.670374419e-8  # W/(m²·K⁴), Stefan–Boltzmann constant, CODATA 2018
@@ -55,18 +54,13 @@ class Radiation(TwoTerminal):
 
     @staticmethod
     def read(r, t) -> None:
-        name_tok, a, b, attrs = t.children
-        name = r.element_name(name_tok)
-        na, nb = r.node(a, THERMAL), r.node(b, THERMAL)
-        at = r.attrs(attrs, ("emissivity", "area", "view"), "radiation")
-        missing = [k for k in ("emissivity", "area") if k not in at]
-        if missing:
-            raise r.err(name_tok, f"radiation `{name}` needs " + " and ".join(f"`{m}`" for m in missing),
-                        "give the radiating surface: `emissivity 0.9  area 0.01 m^2` (and `view F`, default 1)")
+        name, loc, na, nb, at = read_between(
+            r, t, "radiation", ("emissivity", "area", "view"), ("emissivity", "area"),
+            "give the radiating surface: `emissivity 0.9  area 0.01 m^2` (and `view F`, default 1)")
         eps = fraction(r, at["emissivity"].children[0], "an emissivity", "emissivity 0.9")
         area = r.const(at["area"].children[0], U.AREA, "a radiating area", positive=True)
         view = fraction(r, at["view"].children[0], "a view factor", "view 0.5") if "view" in at else 1.0
-        r.design.elements.append(Radiation(name, r.loc(name_tok), a=na, b=nb, emissivity=eps, area=area,
+        r.design.elements.append(Radiation(name, loc, a=na, b=nb, emissivity=eps, area=area,
                                            view=view))
 
     def values(self, ta, tb) -> dict:

@@ -1,20 +1,14 @@
 """Steady state: damped Newton, then source stepping, then gmin stepping; also the transient's start."""
 from __future__ import annotations
 
-import warnings
-
 import numpy as np
 import scipy.sparse as sp
-import scipy.sparse.linalg as spla
 
 from netgen.solve.assembly import TEMP, WATT, System
+from netgen.solve.factor import lu
 from netgen.model.errors import SolveError
 
 MAX_ITER = 60
-# Fill-reducing column order for SuperLU. Minimum degree on the structure of A + Aᵀ suits MNA
-# matrices, whose pattern is symmetric: on a 300 × 300 plate it gives half the fill of COLAMD
-# and solves a third faster (benchmarks/README.md).
-ORDERING = "MMD_AT_PLUS_A"
 
 
 def _guess(sys: System, t: float) -> np.ndarray:
@@ -33,19 +27,6 @@ def _weights(sys: System, x: np.ndarray) -> np.ndarray:
     return 1e-9 + 1e-9 * np.abs(x)
 
 
-def lu(A: sp.spmatrix):
-    """SuperLU factors of A, or None when A is singular."""
-    with warnings.catch_warnings():
-        warnings.simplefilter("error", sp.linalg.MatrixRankWarning)
-        try:
-            return spla.splu(sp.csc_matrix(A), permc_spec=ORDERING)
-        except (RuntimeError, sp.linalg.MatrixRankWarning):
-            return None
-
-
-_lu = lu
-
-
 def newton(residual, jacobian, x0, weights, max_iter=MAX_ITER, constant_jacobian=False):
     """Damped Newton on residual(x) = 0. Returns (x, converged, worst_index).
 
@@ -58,7 +39,7 @@ def newton(residual, jacobian, x0, weights, max_iter=MAX_ITER, constant_jacobian
     factors = None
     for _ in range(max_iter):
         if factors is None or not constant_jacobian:
-            factors = _lu(jacobian(x))
+            factors = lu(jacobian(x))
         if factors is None:
             return x, False, worst
         dx = factors.solve(-r)

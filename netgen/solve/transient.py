@@ -10,17 +10,14 @@ filtered through that matrix so algebraic unknowns do not inflate it.
 from __future__ import annotations
 
 import math
-import warnings
 from collections import OrderedDict
 from dataclasses import dataclass
 
 import numpy as np
-import scipy.sparse as sp
-import scipy.sparse.linalg as spla
 
 from netgen.solve.assembly import System
 from netgen.model.errors import SolveError
-from netgen.solve.steady import ORDERING
+from netgen.solve.factor import lu
 
 GAMMA = 2.0 - math.sqrt(2.0)
 D = GAMMA / 2.0  # = (1 − γ)/(2 − γ)
@@ -119,23 +116,17 @@ class _Factors:
             return self.cache[key]
         if not self.sys.linear and not fresh and key == self.last_key:
             return self.last_lu
-        M = self.sys.matrix(1.0, D * h, x, state)
-        with warnings.catch_warnings():
-            warnings.simplefilter("error", sp.linalg.MatrixRankWarning)
-            try:
-                lu = spla.splu(M, permc_spec=ORDERING)
-            except (RuntimeError, sp.linalg.MatrixRankWarning):
-                lu = None
+        factors = lu(self.sys.matrix(1.0, D * h, x, state))
         self.count += 1
         if self.sys.linear:
-            self.cache[key] = lu
+            self.cache[key] = factors
             # A factorisation of a 300 × 300 plate is ~60 MB: on large networks keep only the
             # latest, since an earlier step size rarely comes back.
             while len(self.cache) > 1 and (len(self.cache) > KEEP_FACTORS or sum(
                     f.nnz for f in self.cache.values() if f is not None) > KEEP_NONZEROS):
                 self.cache.popitem(last=False)
-        self.last_key, self.last_lu = key, lu
-        return lu
+        self.last_key, self.last_lu = key, factors
+        return factors
 
     def solve(self, lu, rhs):
         self.solves += 1
