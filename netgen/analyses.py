@@ -138,6 +138,13 @@ ANALYSES = (SteadyAnalysis(), TransientAnalysis(), ModesAnalysis())
 def run(d: Design, progress=None) -> Results:
     """Solve every analysis `d` asks for (with none declared, the steady state), then evaluate
     its expectations, figures of merit, cautions and audits."""
+    # A runaway overflows to inf and NaN; the solvers see those as failed steps and say so in
+    # their own words (a SolveError), so numpy's RuntimeWarnings are not printed on the way.
+    with np.errstate(all="ignore"):
+        return _run(d, progress)
+
+
+def _run(d: Design, progress=None) -> Results:
     sys = assemble(d)
     wanted = signal_texts(d)
     r = Run(d, sys, SignalEval(d, sys), wanted, Results(design=d, signals=wanted), progress)

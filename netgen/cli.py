@@ -24,6 +24,9 @@ def _settings(pairs: list[str] | None) -> dict[str, str]:
         if "=" not in p:
             raise NetgenError(f"--set {p}: expected NAME=VALUE", None, "e.g. --set I_drive=1.5A")
         k, v = p.split("=", 1)
+        if k.strip() in out:  # which one was meant? the last silently winning hides a typo
+            raise NetgenError(f"--set {k.strip()} is given twice ({k.strip()}={out[k.strip()]}, then {k.strip()}={v.strip()})",
+                              None, "give each parameter once")
         out[k.strip()] = v.strip()
     return out
 
@@ -52,9 +55,12 @@ def cmd_check(args) -> int:
 
 def cmd_run(args) -> int:
     from netgen.analyses import run
-    from netgen.outputs.files import write_outputs
+    from netgen.outputs.files import output_dir, output_file, write_outputs
     from netgen.outputs.text import print_results
 
+    out = output_dir(args.out, "--out")  # every output path checked before the solve
+    output_dir(args.plot, "--plot")
+    output_file(args.report, "--report")
     if args.plot or args.report:
         from netgen.outputs.plots import require
 
@@ -70,16 +76,19 @@ def cmd_run(args) -> int:
         res = run(d, progress)
     except NetgenError as e:
         partial = getattr(e, "results", None)
-        if args.out and partial is not None:
-            for path in write_outputs(partial, Path(args.out)):
-                print(f"wrote {path} (partial: up to t = {partial.time[-1]:.6g} s)", file=sys.stderr)
+        if out is not None and partial is not None:
+            try:
+                for path in write_outputs(partial, out):
+                    print(f"wrote {path} (partial: up to t = {partial.time[-1]:.6g} s)", file=sys.stderr)
+            except NetgenError as w:  # say so, then report the solve's own error
+                print(w.render(), file=sys.stderr)
         raise
     finally:
         if progress is not None:
             progress.done()
     print_results(res)
-    if args.out:
-        for path in write_outputs(res, Path(args.out)):
+    if out is not None:
+        for path in write_outputs(res, out):
             print(f"wrote {path}")
     if args.plot or args.report:
         _run_pictures(args, res)
@@ -110,17 +119,25 @@ def _run_pictures(args, res) -> None:
 
 
 def cmd_verify(args) -> int:
+    from netgen.outputs.files import output_dir, output_file
+    from netgen.regression.baseline import baseline_path
     from netgen.regression.verify import check_names, design_files, exit_code, outcome_lines, parse_rtol, total_line, verify_file
 
     settings = _settings(args.set)
     rtol, per_signal = parse_rtol(args.rtol)
+    directory = output_dir(args.baseline, "--baseline", write=args.update_baseline)
+    output_file(args.junit, "--junit")
+    output_file(args.report, "--report")
     if args.report:
         from netgen.outputs.plots import require
 
         require()
     files = design_files(args.paths)
-    directory = Path(args.baseline) if args.baseline else None
     check_names(files, directory)
+    if args.update_baseline:  # every baseline folder, before the first design runs
+        for f in files:
+            folder = baseline_path(f, directory).parent
+            output_dir(str(folder), "--baseline", label=f"--update-baseline: the baseline folder of `{f}`")
     outcomes = []
     for f in files:
         o = verify_file(f, settings, directory, rtol, per_signal, args.update_baseline)
@@ -149,14 +166,16 @@ def cmd_verify(args) -> int:
 
 
 def cmd_export(args) -> int:
+    from netgen.outputs.files import output_file
     from netgen.spice.netlist import write_netlist
 
+    out = output_file(args.output, "-o")
     d = _load(args)
     text = write_netlist(d)
-    if args.output:
+    if out is not None:
         from netgen.outputs.files import write_atomic
 
-        write_atomic(Path(args.output), text)
+        write_atomic(out, text)
         print(f"wrote {args.output}")
     else:
         sys.stdout.write(text)
@@ -164,12 +183,14 @@ def cmd_export(args) -> int:
 
 
 def cmd_crosscheck(args) -> int:
+    from netgen.outputs.files import output_dir
     from netgen.spice.crosscheck import Tolerances, crosscheck
     from netgen.spice.simulator import SimulatorError
 
+    keep = output_dir(args.keep, "--keep")
     d = _load(args)
     try:
-        rep = crosscheck(d, args.simulator, Tolerances.from_rtol(args.rtol), Path(args.keep) if args.keep else None)
+        rep = crosscheck(d, args.simulator, Tolerances.from_rtol(args.rtol), keep, timeout=args.timeout)
     except SimulatorError as e:  # missing or failed: its own words, and a code of its own
         print(f"netgen crosscheck: {e.render()}", file=sys.stderr)
         return EXIT_SIMULATOR
@@ -177,6 +198,27 @@ def cmd_crosscheck(args) -> int:
     if args.keep:
         print(f"kept the netlist, the raw file and the simulator's output in {args.keep}")
     return EXIT_OK if rep.passed else EXIT_FAILED
+
+
+def cmd_format(args) -> int:
+    from netgen.language.layout import format_files
+    from netgen.outputs.files import write_atomic
+
+    done = format_files(args.files)  # every file read and formatted before any is written
+    changed = [f for f in done if f.changed]
+    # With --diff, standard output carries the diff alone, so that it can be applied as it is.
+    report = sys.stderr if args.diff else sys.stdout
+    for f in changed:
+        if args.diff:
+            sys.stdout.write(f.diff())
+        if args.check:
+            print(f"would change: {f.path}", file=report)
+        elif not args.diff:
+            write_atomic(f.path, f.new)
+            print(f"formatted {f.path}", file=report)
+    verb = "would change" if args.check or args.diff else "changed"
+    print(f"{len(changed)} of {len(done)} file{'s' if len(done) != 1 else ''} {verb}", file=report)
+    return EXIT_FAILED if args.check and changed else EXIT_OK
 
 
 def _positive(text: str) -> float:
@@ -190,10 +232,11 @@ def _positive(text: str) -> float:
 
 
 def cmd_matrices(args) -> int:
-    from netgen.outputs.files import write_matrices
+    from netgen.outputs.files import output_dir, write_matrices
 
+    out = output_dir(args.output, "-o")
     d = _load(args)
-    for path in write_matrices(d, Path(args.output)):
+    for path in write_matrices(d, out):
         print(f"wrote {path}")
     return EXIT_OK
 
@@ -242,8 +285,18 @@ def build_parser() -> argparse.ArgumentParser:
     x.add_argument("--rtol", metavar="R", type=_positive, default=None,
                    help="relative tolerance of the comparison (default 1e-3); every tolerance scales with it")
     x.add_argument("--keep", metavar="DIR", help="keep the netlist, the raw file and the simulator's output in DIR")
+    x.add_argument("--timeout", metavar="SECONDS", type=_positive, default=600.0,
+                   help="end the simulator (and everything it started) after SECONDS (default: 600)")
     m = add("matrices", cmd_matrices, "write the assembled matrices (Matrix Market) and unknown names")
     m.add_argument("-o", "--output", metavar="DIR", default="matrices", help="directory (default: ./matrices)")
+    f = sub.add_parser("format", help="rewrite .etn files into the canonical layout",
+                       description="Rewrite each file into one canonical layout (spacing, indentation inside "
+                       "{ ... }, comments aligned), keeping its lines, comments, units and meaning.")
+    f.add_argument("files", nargs="+", metavar="FILE", help="a .etn file (several may be given)")
+    f.add_argument("--check", action="store_true",
+                   help="write nothing; name each file that would change and exit with 1 if any would")
+    f.add_argument("--diff", action="store_true", help="write nothing; print a unified diff of each change")
+    f.set_defaults(func=cmd_format)
     return p
 
 

@@ -31,6 +31,8 @@ class Fixed(Kind):
         name_tok, value = t.children
         name = r.node(name_tok, THERMAL)
         wave, _ = r.wave(value, U.TEMPERATURE, "a reservoir temperature")
+        if wave.constant:  # one that varies in time is checked over the run (solve/topology.py)
+            r.above_absolute_zero(value, wave.at(0.0), "a reservoir temperature")
         if any(isinstance(e, Fixed) and e.node == name for e in r.design.elements):
             raise r.err(name_tok, f"node `{name}` is already fixed")
         r.design.elements.append(Fixed(name, r.loc(name_tok), node=name, temperature=wave))

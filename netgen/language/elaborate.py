@@ -18,12 +18,15 @@ from netgen.model.errors import NetgenError, NetgenErrors
 from netgen.model.expr import Const, Wave
 from netgen.language import plate
 from netgen.language.grammar import parser, paused_gc
-from netgen.language.parts import PartDef, PartsMixin  # noqa: F401
+from netgen.language.plain_lines import TooDeep
+from netgen.language.parts import MAX_STATEMENTS, PartDef, PartsMixin, TooLarge  # noqa: F401
 from netgen.language.expressions import ExprReader, SIGNAL_KINDS, Typed
 from netgen.language.overrides import Overrides
+from netgen.language.source import Unreadable, check_breaks, read_file, split_lines
 from netgen.solve.topology import check_design  # the structural checks run on the finished model
 
 MAX_ERRORS = 20
+MAX_POINTS = 1_000_000  # points a transient may report (until / step); see also solve.transient.MAX_STEPS
 NOT_YET: dict[str, str] = {}  # statements of LANGUAGE.md not implemented yet, with a hint
 # Statements that make sense only once per design, not inside a reusable part.
 TOP_LEVEL_ONLY = ("design", "steady", "transient", "modes", "record", "expect_agg", "expect_at", "audit",
@@ -41,18 +44,21 @@ STATEMENTS = ["design", "let", "mass", *dict.fromkeys(k.statement for k in KINDS
 
 def load(path, overrides: dict[str, str] | None = None) -> Design:
     """Read a .etn file into a checked Design. Raises NetgenError with a location."""
-    p = Path(path)
+    return load_text(read_source(path), str(path), overrides)
+
+
+def read_source(path) -> str:
+    """The text of a .etn file; an unreadable file or one that is not UTF-8 is a NetgenError."""
     try:
-        raw = p.read_bytes()
-    except OSError as e:
-        raise NetgenError(f"cannot read `{path}`: {e.strerror or e}") from None
+        raw = read_file(path, str(path))  # a regular file of bounded size only (language/source.py)
+    except Unreadable as e:
+        raise NetgenError(e.message, None, e.hint) from None
     try:
-        text = raw.decode("utf-8")
+        return raw.decode("utf-8")
     except UnicodeDecodeError as e:
         line = raw[: e.start].count(b"\n") + 1
         col = e.start - (raw.rfind(b"\n", 0, e.start) + 1) + 1
         raise NetgenError("the file is not valid UTF-8", Loc(str(path), line, col), "save it as UTF-8") from None
-    return load_text(text, str(path), overrides)
 
 
 def load_text(text: str, filename: str = "<text>", overrides: dict[str, str] | None = None) -> Design:
@@ -66,7 +72,7 @@ def load_text(text: str, filename: str = "<text>", overrides: dict[str, str] | N
 class Elaborator(PartsMixin):
     def __init__(self, text: str, filename: str, overrides: dict[str, str]):
         self.text = text
-        self.lines = text.splitlines()  # of the file being read now (changes inside includes)
+        self.lines = split_lines(text)  # of the file being read now (changes inside includes); cut at \n only
         self.file = filename
         self.overrides = Overrides(overrides)
         self.used_overrides: set[str] = set()
@@ -85,6 +91,9 @@ class Elaborator(PartsMixin):
         self.local_names: set[str] = set()
         self.bindings: dict[str, Typed] = {}
         self.expanding: list[str] = []
+        self.size = 0  # statements read, those of parts at each use (parts.MAX_STATEMENTS)
+        self.cells = 0  # of all plates (plate.MAX_CELLS)
+        self.part_sizes: dict[str, int] = {}
         self.including: list[Path] = [Path(filename).resolve()] if filename != "<text>" else []
 
     # ---- locations ---------------------------------------------------------------
@@ -101,8 +110,22 @@ class Elaborator(PartsMixin):
     def err(self, item, message, hint=None) -> NetgenError:
         return NetgenError(message, self.loc(item), hint)
 
+    def override_notes(self, dim) -> list[str]:
+        """The overrides in use of parameters in `dim`: where a refused value may come from."""
+        return [f"in effect: {self.overrides._where(n)}" for n in sorted(self.used_overrides)
+                if n in self.params and self.params[n].dim == dim]
+
+    def above_absolute_zero(self, tree, kelvin: float, what: str) -> None:
+        """A temperature read from the file (or an override) must be above 0 K."""
+        if kelvin <= 0:
+            e = self.err(tree, f"{what} must be above absolute zero, not {kelvin:g} K",
+                         "temperatures are absolute: write e.g. `300 K` or `25 degC`")
+            e.notes = self.override_notes(U.TEMPERATURE)
+            raise e
+
     # ---- driver ------------------------------------------------------------------
     def run(self) -> Design:
+        check_breaks(self.text, self.file, self.lines)
         tree = self.parse(self.text)
         try:
             self.statements(tree.children)
@@ -136,10 +159,13 @@ class Elaborator(PartsMixin):
                                    "split a very long expression into several `let` steps") from None
             except NetgenError as e:
                 self.errors.append(e)
-                if len(self.errors) >= MAX_ERRORS or e.loc is None:
+                if len(self.errors) >= MAX_ERRORS or e.loc is None or isinstance(e, TooLarge):
                     raise _Stop() from None  # a --set error has no place in the file; the rest would echo it
 
     def statement(self, stmt) -> None:
+        self.size += 1
+        if self.size > MAX_STATEMENTS:
+            raise self.too_large(stmt)
         if self.prefix and stmt.data in TOP_LEVEL_ONLY:
             word = stmt.data.split("_")[0]
             raise self.err(stmt, f"`{word}` is not allowed inside a part", "write it in the design that uses the part")
@@ -165,6 +191,8 @@ class Elaborator(PartsMixin):
             line, col = max(1, len(self.lines)), len(self.lines[-1]) + 1 if self.lines else 1
         text = self.lines[line - 1] if 0 < line <= len(self.lines) else ""
         loc = Loc(self.file, line, col, text)
+        if isinstance(e, TooDeep):
+            return NetgenError(str(e), loc, e.hint)
         if isinstance(e, UnexpectedToken):
             tok = e.token
             expected = sorted({_TOKEN_WORDS.get(t, f"`{t.lower()}`") for t in e.expected if not t.startswith("__")})
@@ -201,7 +229,7 @@ class Elaborator(PartsMixin):
             return NetgenError(f"unexpected character `{ch}`", loc, hint)
         if isinstance(e, UnexpectedEOF):
             return NetgenError("the file ends in the middle of a statement", loc, "is a `}` or `)` missing?")
-        return NetgenError(str(e).splitlines()[0], loc)
+        return NetgenError(str(e).split("\n")[0], loc)
 
     # ---- values ------------------------------------------------------------------
     def reader(self, signals_ok=False) -> ExprReader:
@@ -225,7 +253,10 @@ class Elaborator(PartsMixin):
         if not math.isfinite(v):
             raise self.err(tree, f"{what} is not a finite number")
         if positive and v <= 0:
-            raise self.err(tree, f"{what} must be positive, not {v:g} {U.unit_name(t.dim)}")
+            unit = "" if t.dim.dimensionless else f" {U.unit_name(t.dim)}"  # not `0 1`
+            e = self.err(tree, f"{what} must be positive, not {v:g}{unit}")
+            e.notes = self.override_notes(t.dim)
+            raise e
         if nonneg and v < 0:
             raise self.err(tree, f"{what} may not be negative")
         return v
@@ -378,6 +409,10 @@ class Elaborator(PartsMixin):
         step = self.const(at["step"].children[0], U.TIME, "a step", positive=True) if "step" in at else None
         if step is not None and step > until:
             raise self.err(at["step"], f"the step ({step:g} s) is longer than the run ({until:g} s)")
+        if step is not None and until / step > MAX_POINTS:  # each point is kept in memory, and solved for
+            raise self.err(at["step"], f"the transient would report {until / step:.3g} points ({until:g} s in "
+                           f"steps of {step:g} s), and netgen reports at most {MAX_POINTS:,}",
+                           f"use `step {until / MAX_POINTS:.4g} s` or longer, or a shorter run")
         tol = self.const(at["tolerance"].children[0], U.NONE, "a tolerance", positive=True) if "tolerance" in at else None
         self.design.analyses.append(Transient(until, self.loc(t), step, tol))
 

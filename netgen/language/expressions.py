@@ -12,12 +12,14 @@ from lark import Token, Tree
 from netgen.model import units as U
 from netgen.model.errors import NetgenError
 from netgen.model.expr import Binary, Const, Expr, Func, Shape, SignalRef, Time, Unary, Var, evaluate
+from netgen.language.plain_lines import MAX_DEPTH
 
 _NUM = re.compile(r"^((?:[0-9]+(?:\.[0-9]+)?|\.[0-9]+)(?:[eE][+-]?[0-9]+)?)[ \t]*(.*)$")
 
 FUNCTIONS = ("sqrt", "exp", "log", "abs", "min", "max", "sin", "cos")
 SHAPES = ("step", "ramp", "pulse", "sine", "table")
 SIGNAL_KINDS = ("T", "V", "I", "Q", "P")
+MAX_NODES = 10_000  # terms of one value with the parameters it names written out (MAX_DEPTH: plain_lines.py)
 RESERVED = ("time", "pi")
 
 
@@ -67,10 +69,28 @@ class ExprReader:
 
     def read(self, tree) -> Typed:
         t = self._read(tree)
+        if not isinstance(t.expr, Const):
+            self._bounded(t.expr, tree)  # before anything walks it
         if (not isinstance(t.expr, Const) and not t.expr.uses_time and not t.expr.uses_signals
                 and not t.expr.uses_vars):
             t = Typed(Const(float(evaluate(t.expr))), t.dim, t.celsius)
         return t
+
+    def _bounded(self, e: Expr, tree) -> None:
+        """A value that varies (in time, with `T`, or with a signal) keeps the trees of the
+        parameters it names, and those of theirs: a chain of `let`s can nest deeper than any one
+        line, and `let b = a + a` doubles `a`. Every later stage walks the whole tree, so its
+        depth and its size are limited here, where the line is known."""
+        depth, size = _measure(e)
+        hint = ("a parameter that varies is written out wherever it is used: compute fewer steps in a chain of "
+                "`let`s, or use such a parameter fewer times")
+        if depth > MAX_DEPTH:
+            raise self.err(tree, f"this value nests {depth} levels deep with the parameters it uses written out, "
+                           f"and netgen reads at most {MAX_DEPTH}", hint)
+        if size > MAX_NODES:
+            shown = f"{size:,}" if size < 10**15 else f"more than 10^{len(str(size)) - 1}"
+            raise self.err(tree, f"this value has {shown} terms with the parameters it uses written out, and "
+                           f"netgen reads at most {MAX_NODES:,}", hint)
 
     def _read(self, tree) -> Typed:
         if isinstance(tree, Token):
@@ -254,6 +274,26 @@ class ExprReader:
         text = f"{kind}({', '.join(names)})"
         dim = self.signal_dim(kind, tuple(names), tree)
         return Typed(SignalRef(kind, tuple(names), text), dim)
+
+
+def _measure(e: Expr) -> tuple[int, int]:
+    """Depth and size of an expression tree, a shared part counted wherever it stands (as the
+    later stages see it). Iterative, each shared node measured once: a chain of a thousand, or
+    a tree of 2^40 written-out nodes, takes as many steps as it has distinct nodes."""
+    memo: dict[int, tuple[int, int]] = {}
+    stack = [(e, False)]
+    while stack:
+        node, ready = stack.pop()
+        if id(node) in memo:
+            continue
+        kids = node.children()
+        if not ready and kids:
+            stack.append((node, True))
+            stack.extend((k, False) for k in kids if id(k) not in memo)
+            continue
+        memo[id(node)] = (1 + max((memo[id(k)][0] for k in kids), default=0),
+                          1 + sum(memo[id(k)][1] for k in kids))
+    return memo[id(e)]
 
 
 def _fold(e: Expr) -> Expr:

@@ -8,7 +8,7 @@ from pathlib import Path
 
 from lark import Lark
 
-from netgen.language.plain_lines import LineReader
+from netgen.language.plain_lines import LineReader, check_depth
 
 
 def grammar_text() -> str:
@@ -44,7 +44,9 @@ class Parser:
     def parse(self, text: str, start: str = "start"):
         if start == "start":
             return self.lines.parse(text)
-        return self.lark.parse(text, start=start)
+        tree = self.lark.parse(text, start=start)
+        check_depth(tree)  # as the line reader does for each statement
+        return tree
 
     def __getattr__(self, name):
         return getattr(self.lark, name)
@@ -52,8 +54,9 @@ class Parser:
 
 @functools.lru_cache(maxsize=1)
 def parser() -> Parser:
-    # cache=True keeps the built LALR tables in the temporary directory, keyed by the grammar's
-    # hash, so each command skips building them (about 0.2 s).
+    # No cache: lark's cache is a pickle, kept at a predictable name in the shared temporary
+    # folder, so whoever wrote that file first ran code in every later netgen process. Building
+    # the tables costs about 0.2 s of CPU per command (issue 17).
     return Parser(Lark(
         grammar_text(),
         parser="lalr",
@@ -61,5 +64,5 @@ def parser() -> Parser:
         propagate_positions=True,
         maybe_placeholders=True,
         start=["start", "expr"],
-        cache=True,
+        cache=False,
     ))

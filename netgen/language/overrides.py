@@ -20,6 +20,7 @@ from netgen.model.errors import NetgenError
 from netgen.model.expr import Const
 from netgen.language.expressions import ExprReader, Typed
 from netgen.language.grammar import parser
+from netgen.language.plain_lines import MAX_DEPTH, TooDeep
 
 COMMAND_LINE, API = "--set", "override"
 _API_HINT = 'give a number in SI units or text with its unit, e.g. {"I_drive": 1.5} or {"I_drive": "1.5 A"}'
@@ -62,6 +63,10 @@ class Overrides(dict):
         shown = "" if self.flag == COMMAND_LINE else f" {text!r}"
         try:
             tree = parser().parse(text, start="expr")
+        except TooDeep as e:
+            raise NetgenError(f"{where}: the value{shown} nests {e.depth} levels deep, and netgen reads at most "
+                              f"{MAX_DEPTH}", None,
+                              "give a simpler value, or compute it in the file with `let`") from None
         except UnexpectedInput:
             hint = "write a number with its unit, e.g. --set I_drive=1.5A" if self.flag == COMMAND_LINE else _API_HINT
             raise NetgenError(f"{where}: cannot read the value{shown}", None, hint) from None

@@ -9,6 +9,24 @@ from lark import Token, Tree
 
 from netgen.model.design import Loc
 from netgen.model.errors import NetgenError
+from netgen.language.source import Unreadable, check_breaks, read_file, split_lines
+
+
+# Statements a design may expand to: each statement read counts, those of a part again at each
+# `use` (so a part that uses another twice doubles it). Reading takes about 30 us a statement.
+MAX_STATEMENTS = 1_000_000
+
+
+class TooLarge(NetgenError):
+    """The design expands past MAX_STATEMENTS: reading stops at the first such error."""
+
+
+def _many(n: int) -> str:
+    return f"{n:,}" if n < 10**15 else f"more than 10^{len(str(n)) - 1}"
+
+
+_SIZE_HINT = ("each `use` reads its part's statements again, so parts that use another part twice, a few levels "
+              "deep, multiply: use fewer copies, or `plate` for a large grid")
 
 
 @dataclass
@@ -46,6 +64,13 @@ class PartsMixin:
                            f"did you mean `{close[0]}`?" if close else "define it first with `part NAME(PORTS) { ... }`")
         if part.name in self.expanding:
             raise self.err(part_tok, f"part `{part.name}` uses itself", "parts may not be recursive")
+        size = self.part_size(part)
+        if self.size + size > MAX_STATEMENTS:  # before reading any of it: 2^40 copies would never end
+            raise TooLarge(f"`use {part.name}` here would expand to {_many(size)} statements, and a design may expand "
+                           f"to at most {MAX_STATEMENTS:,}"
+                           + (f" ({self.size - 1:,} are read before it)" if size <= MAX_STATEMENTS
+                              else ""),
+                           self.loc(part_tok), _SIZE_HINT)
         nodes = [c for c in rest if isinstance(c, Token) and c.type == "NAME"]
         bindings = [c for c in rest if isinstance(c, Tree) and c.data == "binding"]
         if len(nodes) != len(part.ports):
@@ -83,6 +108,44 @@ class PartsMixin:
             (self.prefix, self.ports, self.local_names, self.bindings, self.params, self.param_locs,
              self.file, self.lines) = saved
 
+    def too_large(self, item) -> TooLarge:
+        return TooLarge(f"the design expands to more than {MAX_STATEMENTS:,} statements here, and that is the most "
+                        "netgen reads", self.loc(item), _SIZE_HINT)
+
+    def part_size(self, part: PartDef) -> int:
+        """The statements one `use` of `part` reads: its own, and again those of each part it uses,
+        as the parts are defined now. Without recursion (a chain of a thousand parts is fine);
+        remembered once every part it reaches is defined. A part that is not defined yet, or that
+        leads back to itself, counts as nothing here: reading it is an error of its own."""
+        known = self.part_sizes
+        done: dict[str, tuple[int, bool]] = {}  # name -> (size, complete) in this count
+        active: set[str] = set()  # entered and not yet left: the path from `part`
+        stack = [(part.name, False)]
+        while stack:
+            name, leaving = stack.pop()
+            used = [str(s.children[0]) for s in self.parts[name].body if isinstance(s, Tree) and s.data == "use"]
+            if not leaving:
+                if name in done or name in known:
+                    continue
+                active.add(name)
+                stack.append((name, True))
+                stack.extend((u, False) for u in used if u in self.parts and u not in active)
+                continue
+            active.discard(name)
+            total, complete = len(self.parts[name].body), True
+            for u in used:
+                if u in known:
+                    total += known[u]
+                elif u in done:
+                    total += done[u][0]
+                    complete = complete and done[u][1]
+                else:
+                    complete = False
+            done[name] = (total, complete)
+            if complete:
+                known[name] = total
+        return known[part.name] if part.name in known else done[part.name][0]
+
     def st_include(self, t):
         tok = t.children[0]
         rel = str(tok)[1:-1]
@@ -93,17 +156,18 @@ class PartsMixin:
         if path in self.including:
             raise self.err(tok, f"`{rel}` is already being read: an include cycle")
         try:
-            text = path.read_bytes().decode("utf-8")
-        except OSError as e:
-            raise self.err(tok, f"cannot read `{rel}`: {e.strerror or e}") from None
+            text = read_file(path, rel).decode("utf-8")  # a regular file of bounded size only
+        except Unreadable as e:
+            raise self.err(tok, e.message, e.hint) from None
         except UnicodeDecodeError:
             raise self.err(tok, f"`{rel}` is not valid UTF-8") from None
         where = self.loc(t)
         saved = (self.file, self.lines)
-        self.file, self.lines = str(path), text.splitlines()
+        self.file, self.lines = str(path), split_lines(text)
         self.including.append(path)
         before = len(self.errors)
         try:
+            check_breaks(text, self.file, self.lines)
             tree = self.parse(text)
             self.statements(tree.children)
         except NetgenError as e:

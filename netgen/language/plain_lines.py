@@ -30,6 +30,9 @@ SHAPES = {
     "capacitor": (3, True, True, True),
     "inductor": (3, True, True, True),
 }
+# Levels of nesting (operators, calls, blocks) one statement may have: every stage after the parser
+# reads trees recursively, and the compiled equations (Python source) allow 200 nested brackets.
+MAX_DEPTH = 100
 _BRACES = re.compile(r'"[^"\n]*"|#.*|[{}]')
 _BLANK = re.compile(r"[ \t]*(?:#[^\n]*)?\r?")
 
@@ -188,23 +191,55 @@ class Statements(Sequence):
 
 
 def _shift(item, lines: int, chars: int) -> None:
-    """Move the positions of a tree parsed from a piece of the text to those in the whole text."""
-    if isinstance(item, Token):
-        if item.line is not None:
-            item.line += lines
-            item.end_line += lines
-            item.start_pos += chars
-            item.end_pos += chars
-        return
-    if isinstance(item, Tree):
-        m = item.meta
+    """Move the positions of a tree parsed from a piece of the text to those in the whole text,
+    and refuse one nested deeper than MAX_DEPTH (TooDeep). Iterative: a statement of a thousand
+    nested levels is walked without a thousand Python frames."""
+    deepest, first = 0, None
+    stack = [(item, 1)]
+    while stack:
+        node, depth = stack.pop()
+        if isinstance(node, Token):
+            if node.line is not None:
+                node.line += lines
+                node.end_line += lines
+                node.start_pos += chars
+                node.end_pos += chars
+            continue
+        if not isinstance(node, Tree):
+            continue
+        m = node.meta
         if not m.empty:
             m.line += lines
             m.end_line += lines
             m.start_pos += chars
             m.end_pos += chars
-        for c in item.children:
-            _shift(c, lines, chars)
+            if depth == MAX_DEPTH + 1 and (first is None or (m.line, m.column) < (first.line, first.column)):
+                first = m
+        deepest = max(deepest, depth)
+        stack.extend((c, depth + 1) for c in node.children)
+    if deepest > MAX_DEPTH:
+        m = first if first is not None else (item.meta if isinstance(item, Tree) else None)
+        raise TooDeep(deepest, m)
+
+
+def check_depth(tree) -> None:
+    """Raise TooDeep for a tree nested deeper than MAX_DEPTH (one that lark read on its own)."""
+    _shift(tree, 0, 0)
+
+
+class TooDeep(UnexpectedInput):
+    """A statement nested deeper than MAX_DEPTH: reading it further (recursively, as every later
+    stage does) would exhaust Python's stack. `line` and `column` are where the limit is passed."""
+
+    def __init__(self, depth: int, meta=None):
+        self.depth = depth
+        empty = meta is None or getattr(meta, "empty", True)
+        self.line = None if empty else meta.line
+        self.column = None if empty else meta.column
+        self.pos_in_stream = None if empty else meta.start_pos
+        self.hint = ("split it into several `let` steps (`let a = ...` then `let b = a + ...`); each term of a "
+                     "long sum and each unary minus counts as a level, parentheses alone do not")
+        super().__init__(f"this statement nests {depth} levels deep, and netgen reads at most {MAX_DEPTH}")
 
 
 def _shift_error(e: UnexpectedInput, lines: int, chars: int) -> None:

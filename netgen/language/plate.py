@@ -29,6 +29,7 @@ from netgen.model.expr import Expr, evaluate, times
 from netgen.elements import Link
 from netgen.elements.link import REPORT_T, law_at, read_law
 from netgen.model.errors import NetgenError
+from netgen.language.parts import TooLarge
 
 EDGES = ("left", "right", "top", "bottom")
 MAX_CELLS = 4_000_000  # 4e6 cells is several GB of model; more is surely a typing slip
@@ -130,6 +131,10 @@ def elaborate(el, t) -> None:
     if rows * cols > MAX_CELLS:
         raise el.err(rows_t, f"a plate of {rows} by {cols} cells is too large (at most {MAX_CELLS:,} cells)",
                      "use larger cells")
+    el.cells += rows * cols
+    if el.cells > MAX_CELLS:  # in all: a part holding a plate may be used many times
+        raise TooLarge(f"plate `{name}` brings the design's plates to {el.cells:,} cells, more than {MAX_CELLS:,} "
+                       "in all", el.loc(rows_t), "use larger cells, or fewer copies of the part that holds the plate")
     at = _attrs(el, attrs_t)
     material = [k for k in MATERIAL if k in at]
     per_cell = [k for k in PER_CELL if k in at]

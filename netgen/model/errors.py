@@ -15,11 +15,10 @@ class NetgenError(Exception):
     def render(self) -> str:
         lines = []
         where = f"{self.loc}: " if self.loc is not None else ""
-        lines.append(f"{where}error: {self.message}")
+        lines.append(f"{where}error: {_shorten_quotes(self.message)}")
         if self.loc is not None and getattr(self.loc, "text", ""):
-            text = self.loc.text.rstrip("\n")
+            text, col = _window(self.loc.text.rstrip("\n"), max(1, self.loc.col))
             lines.append(f"    {text}")
-            col = max(1, self.loc.col)
             # Keep tabs so the caret lines up under the same characters.
             pad = "".join(ch if ch == "\t" else " " for ch in text[: col - 1])
             lines.append(f"    {pad}^")
@@ -31,6 +30,34 @@ class NetgenError(Exception):
 
     def __str__(self) -> str:
         return self.render()
+
+
+# A long line is echoed as a window around the caret, and a long quoted name in a message is
+# shortened, so that a bad line of megabytes prints a few lines, not megabytes.
+WINDOW, QUOTED = 100, 120
+
+
+def _window(text: str, col: int) -> tuple[str, int]:
+    """The part of `text` around column `col` (1-based), with `...` where it is cut, and the
+    caret's column in that part."""
+    if len(text) <= 2 * WINDOW:
+        return text, col
+    start = max(0, min(col - 1 - WINDOW // 2, len(text) - 2 * WINDOW))
+    end = start + 2 * WINDOW
+    head = "..." if start > 0 else ""
+    return head + text[start:end] + ("..." if end < len(text) else ""), col - start + len(head)
+
+
+def _shorten_quotes(message: str) -> str:
+    """Each `quoted` part longer than QUOTED characters shortened to its start and end, with
+    its length said after it."""
+    parts = message.split("`")
+    for i in range(1, len(parts) - 1, 2):  # the odd parts are inside backquotes
+        q = parts[i]
+        if len(q) > QUOTED:
+            parts[i] = f"{q[:QUOTED - 20]}...{q[-10:]}"
+            parts[i + 1] = f" ({len(q)} characters)" + parts[i + 1]
+    return "`".join(parts)
 
 
 class NetgenErrors(NetgenError):

@@ -6,6 +6,7 @@ import io
 import json
 import math
 import os
+import shutil
 import tempfile
 from pathlib import Path
 
@@ -14,13 +15,29 @@ import numpy as np
 from netgen import __version__
 from netgen.checks.results import Results
 from netgen.model.design import Design
+from netgen.model.errors import NetgenError
 from netgen.solve.assembly import assemble
 
 
-def write_atomic(path: Path, text: str | bytes) -> None:
-    """Write via a temporary file in the same directory and rename, so a crash never leaves half a file."""
-    path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
+def _cannot_write(path: Path, e: OSError) -> NetgenError:
+    """An OSError on writing as the user's error (exit 2), naming the path."""
+    why = e.strerror or str(e)
+    at = Path(os.fsdecode(e.filename)) if isinstance(e.filename, (str, bytes, os.PathLike)) else None
+    where = f"`{path}` (at `{at}`)" if at is not None and at in Path(path).parents else f"`{path}`"
+    return NetgenError(f"cannot write {where}: {why}", None,
+                       "choose a place you can write to, in a folder (not inside a file), with space left")
+
+
+def make_dir(path: Path) -> None:
+    """`mkdir -p`, with an OSError turned into a NetgenError."""
+    try:
+        Path(path).mkdir(parents=True, exist_ok=True)
+    except OSError as e:
+        raise _cannot_write(Path(path), e) from None
+
+
+def _temporary(path: Path, text: str | bytes) -> str:
+    """`text` in a new temporary file beside `path`, with the usual mode; its name."""
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", dir=path.parent)
     try:
         if isinstance(text, bytes):
@@ -32,11 +49,128 @@ def write_atomic(path: Path, text: str | bytes) -> None:
         umask = os.umask(0)
         os.umask(umask)
         os.chmod(tmp, 0o666 & ~umask)  # mkstemp makes the file private; give it the usual mode
-        os.replace(tmp, path)
     except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
+        _remove(tmp)
         raise
+    return tmp
+
+
+def _backup(path: Path) -> str:
+    """A second name for the file at `path` (a hard link, else a copy), to put it back with."""
+    fd, keep = tempfile.mkstemp(prefix=f".{path.name}.old.", dir=path.parent)
+    os.close(fd)
+    os.unlink(keep)
+    try:
+        os.link(path, keep)
+    except OSError:
+        shutil.copy2(path, keep)
+    return keep
+
+
+def _remove(path) -> None:
+    try:
+        os.unlink(path)
+    except FileNotFoundError:
+        pass
+
+
+def write_set(files: dict[Path, str | bytes]) -> None:
+    """Write several files as one set: each to a temporary beside it, then all renamed into
+    place. If any step fails (or is interrupted), the new files are removed and the old ones
+    are put back, so a reader finds the whole old set or the whole new one, never a mix and
+    never half a file. An OSError becomes a NetgenError naming the file."""
+    files = {Path(p): t for p, t in files.items()}
+    tmps: dict[Path, str] = {}
+    backups: dict[Path, str] = {}
+    placed: list[Path] = []
+    path = next(iter(files), Path("."))
+    try:
+        for path, text in files.items():
+            make_dir(path.parent)
+            tmps[path] = _temporary(path, text)
+        if len(files) > 1:  # one file is replaced atomically; a set keeps the old ones until all are in
+            for path in files:
+                if path.exists():
+                    backups[path] = _backup(path)
+        for path in files:
+            os.replace(tmps[path], path)
+            placed.append(path)
+    except BaseException as e:
+        for p in placed:
+            if p in backups:
+                os.replace(backups.pop(p), p)
+            else:
+                _remove(p)
+        for p in files:
+            if p not in placed and p in tmps:
+                _remove(tmps[p])
+        for b in backups.values():
+            _remove(b)
+        if isinstance(e, OSError):
+            raise _cannot_write(path, e) from None
+        raise
+    for b in backups.values():
+        _remove(b)
+
+
+def write_atomic(path: Path, text: str | bytes) -> None:
+    """Write via a temporary file in the same directory and rename, so a crash never leaves half
+    a file; an OSError becomes a NetgenError naming the file."""
+    write_set({Path(path): text})
+
+
+# ---- output paths, checked before any work starts -------------------------------------------------
+def _shown(option: str, text: str) -> str:
+    return f"{option} {text}" if text else f'{option} ""'
+
+
+def _writable_parent(path: Path, shown: str) -> None:
+    """The nearest existing folder above `path` (the one a write would create folders in) is a
+    folder, and one this process may write in."""
+    p = path
+    while not os.path.lexists(p) and p != p.parent:
+        p = p.parent
+    if not p.is_dir():
+        raise NetgenError(f"{shown}: `{p}` is a file, so nothing can be written inside it", None,
+                          "name a new or existing folder (not a path through a file)")
+    if not os.access(p, os.W_OK | os.X_OK):
+        raise NetgenError(f"{shown}: cannot write in `{p}` (permission denied)", None,
+                          "choose a folder you can write to")
+
+
+def output_dir(text: str | None, option: str, write: bool = True, label: str | None = None) -> Path | None:
+    """An output folder named on the command line (`--out DIR`), checked before any work: not
+    empty, not an existing file, not inside a file, writable (with `write=False` only a folder
+    to read from, if it exists). None if the option was not given. Messages start with
+    `OPTION DIR`, or with `label` for a folder the user did not name."""
+    if text is None:
+        return None
+    shown = label or _shown(option, text)
+    hint = f"name a new or existing folder, e.g. {option} results" if label is None else \
+        f"name another folder with {option} DIR"
+    if not text.strip():
+        raise NetgenError(f"{shown}: the folder name is empty", None, hint)
+    path = Path(text)
+    if os.path.lexists(path) and not path.is_dir():
+        raise NetgenError(f"{shown}: `{path}` is a file, not a folder", None, hint)
+    if write:
+        _writable_parent(path, shown)
+    return path
+
+
+def output_file(text: str | None, option: str) -> Path | None:
+    """An output file named on the command line (`-o OUT`), checked before any work: not empty,
+    not a folder, its folder writable (it may not exist yet). None if the option was not given."""
+    if text is None:
+        return None
+    shown = _shown(option, text)
+    if not text.strip():
+        raise NetgenError(f"{shown}: the file name is empty", None, f"name a file, e.g. {option} out.txt")
+    path = Path(text)
+    if path.is_dir() or text.endswith(("/", os.sep)):
+        raise NetgenError(f"{shown}: `{path}` is a folder, not a file", None, f"name a file, e.g. {option} {path / 'out'}")
+    _writable_parent(path.parent, shown)
+    return path
 
 
 def summary(res: Results) -> dict:
@@ -90,16 +224,16 @@ def transient_csv(res: Results) -> str:
 
 
 def write_outputs(res: Results, out_dir: Path) -> list[Path]:
-    written = []
+    """transient.csv (with a transient) and summary.json, written as one set (`write_set`)."""
+    files: dict[Path, str] = {}
     if res.time is not None:
         # A transient that stopped early never replaces a complete one written before.
         p = out_dir / ("transient.partial.csv" if res.stats.get("partial") else "transient.csv")
-        write_atomic(p, transient_csv(res))
-        written.append(p)
+        files[p] = transient_csv(res)
     p = out_dir / ("summary.partial.json" if res.stats.get("partial") else "summary.json")
-    write_atomic(p, json.dumps(_strict(summary(res)), indent=2, allow_nan=False) + "\n")
-    written.append(p)
-    return written
+    files[p] = json.dumps(_strict(summary(res)), indent=2, allow_nan=False) + "\n"
+    write_set(files)
+    return list(files)
 
 
 def write_matrices(d: Design, out_dir: Path) -> list[Path]:
@@ -107,7 +241,7 @@ def write_matrices(d: Design, out_dir: Path) -> list[Path]:
     import scipy.io
 
     sys_ = assemble(d)
-    out_dir.mkdir(parents=True, exist_ok=True)
+    make_dir(out_dir)
     written = []
     state = sys_.switch_state(0.0)
     for name, M in (("G", sys_.G(state)), ("C", sys_.C)):

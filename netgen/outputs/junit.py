@@ -22,7 +22,7 @@ def _suite(o: Outcome) -> ET.Element:
     cls = Path(o.path).stem
     if o.error is not None:
         case = _case(suite, cls, "run", o.elapsed)
-        ET.SubElement(case, "error", message=o.error.splitlines()[0]).text = o.error
+        ET.SubElement(case, "error", message=o.error.split("\n")[0]).text = o.error
         return suite
     for c in o.checks:
         name = (f"line {c.loc.line}: " if c.loc is not None else "") + c.text

@@ -223,7 +223,7 @@ def _settings_text(s: dict[str, str]) -> str:
 def outcome_lines(o: Outcome) -> list[str]:
     """One line for the design, then an indented line for each thing that failed."""
     if o.error is not None:
-        return [f"error {o.path}"] + ["      " + ln for ln in o.error.splitlines()]
+        return [f"error {o.path}"] + ["      " + ln for ln in o.error.split("\n")]
     base, more = _baseline_text(o)
     lines = [f"{o.status:<5} {o.path}: {_checks_text(o)}; {base}  [{o.elapsed:.1f} s]"]
     lines += [f"        {check_text(c)}" for c in o.checks if not c.passed]

@@ -4,9 +4,11 @@ from __future__ import annotations
 from collections import Counter
 
 import networkx as nx
+import numpy as np
 
 from netgen.elements import THERMAL_REF, Fixed
 from netgen.model.design import ELECTRICAL, THERMAL, Design, Loc
+from netgen.model.expr import evaluate
 from netgen.model.errors import NetgenError, NetgenErrors
 
 
@@ -34,12 +36,13 @@ def graph(d: Design) -> nx.MultiGraph:
     return g
 
 
-def _domain_graph(d: Design, domain: str, dc: bool) -> nx.Graph:
-    """Connectivity of one domain; with `dc`, only branches that carry a steady current."""
+def _domain_graph(d: Design, domain: str, dc: bool, held=()) -> nx.Graph:
+    """Connectivity of one domain; with `dc`, only branches that carry a steady current, and
+    not the elements in `held` (whose current is held at a start value)."""
     g = nx.Graph()
     g.add_nodes_from(n.name for n in d.nodes.values() if n.domain == domain)
     for e in d.elements:
-        if dc and not e.carries_dc:
+        if dc and (not e.carries_dc or e.name in held):
             continue
         for a, b, _ in e.branches():
             if b != THERMAL_REF and d.nodes[a].domain == domain:
@@ -66,11 +69,15 @@ def check_design(d: Design) -> None:
     if not d.nodes:
         raise NetgenError("the design has no nodes", Loc(d.file, 1, 1), "add masses, links, resistors ...")
     fixed_nodes = {e.node for e in d.elements if isinstance(e, Fixed)}
+    errors += _cold_reservoirs(d)
 
     # Electrical islands need a ground.
     eg = _domain_graph(d, ELECTRICAL, dc=False)
+    grounded = set()
     for comp in nx.connected_components(eg):
-        if not comp & set(d.grounds):
+        if comp & set(d.grounds):
+            grounded |= comp
+        else:
             first = min((d.nodes[n] for n in comp), key=lambda n: (n.loc.line, n.loc.col))
             errors.append(NetgenError(
                 f"{_nodes('electrical', comp, 'has', 'have')} no path to a ground", first.loc,
@@ -104,29 +111,46 @@ def check_design(d: Design) -> None:
     # In a steady state capacitors carry no current, so every electrical node needs a path to a
     # ground through branches that do; nodes reached only through capacitors and current
     # sources (a cut set) make the steady equations singular. The transient's start holds each
-    # capacitor with a `start` at its voltage, which gives such a path.
+    # capacitor with a `start` at its voltage, which gives such a path, and each inductor with
+    # a `start` at its current, which takes one away: it then sets its current as a current
+    # source does. Islands with no ground at all were reported above.
     islanded = set()
     passes = ([("steady", False)] if d.steady is not None or d.transient is None else [])
     passes += [("transient", True)] if d.transient is not None else []
     for analysis, started in passes:
-        g = _domain_graph(d, ELECTRICAL, dc=True)
+        held = {e.name for e in d.elements if started and e.carries_dc and getattr(e, "start", None) is not None}
+        g = _domain_graph(d, ELECTRICAL, dc=True, held=held)
         if started:
-            g.add_edges_from((e.a, e.b) for e in d.elements if getattr(e, "start", None) is not None)
+            g.add_edges_from((e.a, e.b) for e in d.elements
+                             if getattr(e, "start", None) is not None and not e.carries_dc)
         for comp in nx.connected_components(g):
-            if comp & set(d.grounds) or comp & islanded:
+            if comp & set(d.grounds) or comp & islanded or not comp <= grounded:
                 continue
             islanded |= comp
-            cut = [e for e in d.elements if not e.carries_dc and len(e.terminals) == 2
+            cut = [e for e in d.elements if (not e.carries_dc or e.name in held) and len(e.terminals) == 2
                    and (e.a in comp) != (e.b in comp)]
             first = cut[0] if cut else min((d.nodes[n] for n in comp), key=lambda n: (n.loc.line, n.loc.col))
-            kinds = " and ".join(sorted({e.noun for e in cut})) or "nothing"
+            when = "the start of the transient" if started else "the steady state"
+            coils = [e.name for e in cut if e.name in held]
+            if coils:  # an inductor's start current with nowhere to go but current sources
+                kinds = " and ".join(sorted({e.noun for e in cut if e.name not in held}) + ["inductors with a `start`"])
+                errors.append(NetgenError(
+                    f"{_nodes('electrical', comp, 'is', 'are')} reached only through {kinds} "
+                    f"({_names(e.name for e in cut)}), so {when} has no solution there: the `start` of "
+                    f"{_names(coils)} holds {'its' if len(coils) == 1 else 'their'} current, and nothing else there "
+                    "can take it up", next(e.loc for e in cut if e.name in held),
+                    f"drop the `start` of {_names(coils)} (an inductor then starts at the current the circuit "
+                    "gives it), or add a resistor from one of the nodes to ground"))
+                continue
+            kinds = " and ".join(sorted({e.noun for e in cut}))
+            reached = (f"reached only through {kinds} ({_names(e.name for e in cut)})" if cut else
+                       "connected to a ground only through elements that carry no steady current")
             startable = [e for e in cut if hasattr(e, "start")]
             hint = ("give the capacitor a `start` voltage, or add a resistor to ground (1 Gohm will do)"
                     if analysis == "transient" or startable
                     else "add a resistor from one of them to ground")
             errors.append(NetgenError(
-                f"{_nodes('electrical', comp, 'is', 'are')} reached only through {kinds} "
-                f"({_names(e.name for e in cut)}), so the {'start of the transient' if started else 'steady state'} "
+                f"{_nodes('electrical', comp, 'is', 'are')} {reached}, so {when} "
                 "has no solution there", first.loc, hint))
 
     # Loops of voltage-defining branches make the equations singular.
@@ -143,6 +167,29 @@ def check_design(d: Design) -> None:
             vg.add_edge(a, b)
     if errors:
         raise NetgenErrors(errors) if len(errors) > 1 else errors[0]
+
+
+def _cold_reservoirs(d: Design, samples: int = 1000) -> list[NetgenError]:
+    """Reservoirs whose temperature varies in time must stay above absolute zero over the run:
+    checked at its start, at every corner of their shapes (both sides) and on an even grid
+    (a constant one is refused where it is read)."""
+    until = d.transient.until if d.transient is not None else 0.0
+    out = []
+    for e in d.elements:
+        if not isinstance(e, Fixed) or e.temperature is None or e.temperature.constant:
+            continue
+        t = np.unique(np.concatenate([np.linspace(0.0, until, samples + 1),
+                                      [c for c in e.temperature.corners(until) if 0.0 <= c <= until]]))
+        for left in (False, True):
+            v = np.broadcast_to(np.asarray(evaluate(e.temperature.expr, t, left), dtype=float), t.shape)
+            cold = np.flatnonzero(~(v > 0))
+            if cold.size:
+                i = int(cold[0])
+                out.append(NetgenError(
+                    f"reservoir `{e.name}` falls to {v[i]:g} K at t = {t[i]:g} s: a temperature must stay above "
+                    "absolute zero", e.loc, "temperatures are absolute: write e.g. `300 K` or `25 degC`"))
+                break
+    return out
 
 
 def unused_warnings(d: Design) -> list[str]:

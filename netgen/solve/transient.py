@@ -32,6 +32,9 @@ KEEP_FACTORS = 4  # factorisations kept for reuse, the most recent ones ...
 KEEP_NONZEROS = 6_000_000  # ... while together they hold no more entries than this (~70 MB)
 SLOW = 0.5  # Newton contracting slower than this per iteration asks for a fresh Jacobian
 NEWTON_TOL = 1e-3  # Newton's error, in units of the step's error weights
+# Steps (accepted and rejected) one run may take: five times the points a transient may report
+# (language/elaborate.py MAX_POINTS), so a run that must creep stops with a message, not memory.
+MAX_STEPS = 5_000_000
 
 
 class Columns:
@@ -226,6 +229,12 @@ def integrate(sys: System, x0: np.ndarray, t_end: float, max_step: float | None 
     steps = rejected = 0
     ci = 0
     while t < t_end * (1 - 1e-12):
+        if steps + rejected >= MAX_STEPS:
+            return _partial(times, xs, xds, keep_d, steps, rejected, fac, t,
+                            f"it took {MAX_STEPS:,} steps, the most a transient may take, and covered "
+                            f"{t / t_end:.3g} of the run",
+                            hint="the run is long for how fast the design changes (a fast `sine` or `pulse`, a "
+                            "short time constant): shorten it, or loosen `tolerance`")
         while ci < len(corners) and corners[ci] <= t * (1 + 1e-13) + 1e-300:
             ci += 1
         next_corner = corners[ci] if ci < len(corners) else t_end

@@ -19,25 +19,29 @@ from netgen.spice.approximations import inputs, jumps, notes
 from netgen.spice.crosscheck_report import Report, Row, Tolerances
 from netgen.spice.netlist import Names, netlist
 from netgen.spice.raw import Plot, find_plot
-from netgen.spice.simulator import DEFAULT_SIMULATOR, SimulatorError, simulate
+from netgen.spice.simulator import DEFAULT_SIMULATOR, TIMEOUT, SimulatorError, simulate
 
 # Around a jump the netlist's edge differs from the ideal jump; in a part of the circuit about
 # as fast as the edge is wide, that difference decays over a few of its time constants, so the
 # window is ten edge widths either side (still a hundredth of an output step).
 WINDOW = 10.0
+# The simulator's transient must cover the run: to its end (to rounding), and from no later than
+# this share of it (under `uic` its first point is after t = 0: about a hundredth of its step).
+SPAN_SLACK, LATE_START = 1e-6, 0.05
 
 
 # ---- running both ------------------------------------------------------------------------------
 def crosscheck(design: Design, simulator: str = DEFAULT_SIMULATOR, tol: Tolerances | None = None,
                keep: Path | None = None, edit: Callable[[str], str] | None = None,
-               env: dict[str, str] | None = None) -> Report:
+               env: dict[str, str] | None = None, timeout: float = TIMEOUT) -> Report:
     """Export `design`, run the simulator on it, solve it ourselves and compare. `edit` may
     rewrite the netlist text before it is run (to prove that a wrong netlist is caught);
-    `keep` is a directory for the netlist, the raw file and the simulator's output."""
+    `keep` is a directory for the netlist, the raw file and the simulator's output; the
+    simulator is ended after `timeout` seconds."""
     text, nm = netlist(design)
     if edit is not None:
         text = edit(text)
-    theirs = simulate(text, simulator, keep, env)
+    theirs = simulate(text, simulator, keep, env, timeout)
     ours = run(for_comparison(design))
     return compare(ours, nm, theirs.plots, tol or Tolerances(), theirs.command)
 
@@ -63,6 +67,8 @@ def compare(ours: Results, nm: Names, plots: list[Plot], tol: Tolerances,
         op = find_plot(plots, "Operating Point")
         if op is None:
             raise SimulatorError("the simulator wrote no operating point (.op) results")
+        if op.data.shape[0] == 0:
+            raise SimulatorError("the simulator's operating point (.op) results hold no point")
         rep.steady = _steady(d, sys, nm, ours, op, tol)
     if ours.time is not None:
         tran = find_plot(plots, "Transient Analysis")
@@ -71,8 +77,36 @@ def compare(ours: Results, nm: Names, plots: list[Plot], tol: Tolerances,
         rep.jumps = jumps(d)
         rep.window = WINDOW * nm.edge
         rep.transient = _transient(d, sys, nm, ours, tran, tol, rep)
+    _compared_all(rep, ours)
     rep.notes = notes(d, nm, rep)
     return rep
+
+
+def _compared_all(rep: Report, ours: Results) -> None:
+    """`agree` is said only of everything there was to compare: every signal found in the
+    simulator's results, and our transient over the whole run. Less is the simulator's failure
+    (a SimulatorError, exit 3), never a pass: a raw file with no usable values, or one that
+    stops early, must not agree by comparing nothing."""
+    missing = [r for r in rep.rows if r.missing]
+    if missing:
+        names = ", ".join(dict.fromkeys(r.signal for r in missing))
+        why = "; ".join(dict.fromkeys(r.missing for r in missing))
+        raise SimulatorError(f"the simulator's results hold no values for {names} ({why}): "
+                             f"{len(rep.rows) - len(missing)} of {len(rep.rows)} comparisons could be made",
+                             hint="look at its raw file and output with --keep DIR")
+    if ours.time is None:
+        return
+    until = ours.design.transient.until
+    first, last = rep.span
+    n = len(ours.time)
+    if last < until * (1 - SPAN_SLACK):
+        raise SimulatorError(f"the simulator's transient ends at {last:.6g} s, before the end of the run "
+                             f"({until:.6g} s): {rep.points[0]} of our {n} points could be compared",
+                             hint="look at its raw file and output with --keep DIR")
+    if first > LATE_START * until:
+        raise SimulatorError(f"the simulator's transient starts at {first:.6g} s, {first / until:.0%} into the "
+                             f"run: {rep.points[0]} of our {n} points could be compared",
+                             hint="look at its raw file and output with --keep DIR")
 
 
 # ---- reading the simulator's results as our state ------------------------------------------

@@ -333,10 +333,17 @@ def _notes(notes: set[str], edge: float) -> list[str]:
             for line in textwrap.wrap(f"Note: {text[k]}.", 92, initial_indent="* ", subsequent_indent="*   ")]
 
 
+def _printable(text: str) -> str:
+    """One line of text with its control characters (and other line breaks) written as escapes
+    (`\\x1b`), so that a title cannot end the title line, start a statement, or reach a
+    terminal as a control sequence."""
+    return "".join(ch if ch.isprintable() or ch == " " else ascii(ch)[1:-1] for ch in text)
+
+
 def _header(d: Design, w: _Writer) -> list[str]:
     """Title, the analogy, notes on what is approximated, the name table and the signal map."""
     nm = w.names
-    out = [(d.title or d.file).replace("\n", " "), "* Written by netgen from " + d.file.replace("\n", " "),
+    out = [_printable(d.title or d.file), "* Written by netgen from " + _printable(d.file),
            "* Analogy: temperature = voltage (K), heat flow = current (W), heat capacity =",
            "* capacitance (J/K), thermal resistance = resistance (K/W). Both domains share node 0:",
            "* absolute zero for the thermal side, ground for the electrical side; they are coupled",

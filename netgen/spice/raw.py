@@ -82,6 +82,8 @@ def _plot(data: bytes, pos: int) -> tuple[Plot, int]:
         line, pos = _line(data, pos)
         if "Variables" in header and line[:1] in (" ", "\t") and line.strip():
             parts = line.split()  # index, name, kind [, more attributes]
+            if len(parts) < 2:
+                raise RawError(f"the raw file's variable line `{line.strip()[:40]}` has no name")
             names.append(parts[1].lower())
             kinds.append(parts[2] if len(parts) > 2 else "")
             continue
@@ -94,6 +96,8 @@ def _plot(data: bytes, pos: int) -> tuple[Plot, int]:
         nvar, npts = int(header["No. Variables"]), int(header["No. Points"])
     except (KeyError, ValueError):
         raise RawError("the raw file's header has no `No. Variables` or `No. Points`") from None
+    if nvar < 1 or npts < 0:
+        raise RawError(f"the raw file's header says {nvar} variables and {npts} points")
     if len(names) != nvar:
         raise RawError(f"the raw file's header lists {len(names)} variables but says {nvar}")
     flags = header.get("Flags", "real")
@@ -106,7 +110,25 @@ def _plot(data: bytes, pos: int) -> tuple[Plot, int]:
         for j, k in enumerate(kinds):
             if k in ("frequency", "time"):
                 arr[:, j] = arr[:, j].real
-    return Plot(header.get("Plotname", ""), flags, names, kinds, arr), pos
+    plot = Plot(header.get("Plotname", ""), flags, names, kinds, arr)
+    _check_values(plot)
+    return plot, pos
+
+
+def _check_values(plot: Plot) -> None:
+    """Every value a number (no NaN or infinity), and time, the scale of a transient, never
+    going back. A simulator that writes anything else has failed, whatever its exit code said."""
+    bad = ~np.isfinite(plot.data)
+    if bad.any():
+        i, j = (int(k[0]) for k in np.nonzero(bad))
+        raise RawError(f"the raw file's `{plot.name}` has a value that is not a number: "
+                       f"{plot.names[j]} = {plot.data[i, j]} at point {i}")
+    if "time" in plot:
+        t = np.real(plot["time"])
+        back = np.flatnonzero(np.diff(t) < 0)
+        if back.size:
+            i = int(back[0])
+            raise RawError(f"the raw file's times go back: {float(t[i + 1])!r} s at point {i + 1} comes after {float(t[i])!r} s")
 
 
 def _binary(data: bytes, pos: int, nvar: int, npts: int, cplx: bool) -> tuple[np.ndarray, int]:
