@@ -1,8 +1,10 @@
 """Shared test helpers: the outside circuit simulator, skipped locally when absent, required on CI."""
 from __future__ import annotations
 
+import contextlib
 import os
 import shutil
+import signal
 
 import pytest
 
@@ -30,6 +32,25 @@ def jacobian_by_differences(sys, x, state):
         e[j] = h
         num[:, j] = (F(x + e) - F(x - e)) / (2 * h)
     return num
+
+
+class _TooSlow(BaseException):
+    """Raised by `deadline` in the main thread (SIGALRM); a BaseException so nothing on the way catches it."""
+
+
+@contextlib.contextmanager
+def deadline(seconds: float):
+    """Fail a test that hangs (the code before the fix looped or blocked) instead of waiting."""
+    def ring(signum, frame):
+        raise _TooSlow(f"still running after {seconds} s")
+
+    old = signal.signal(signal.SIGALRM, ring)
+    signal.setitimer(signal.ITIMER_REAL, seconds)
+    try:
+        yield
+    finally:
+        signal.setitimer(signal.ITIMER_REAL, 0)
+        signal.signal(signal.SIGALRM, old)
 
 
 @pytest.fixture(scope="session")

@@ -2,11 +2,9 @@
 readers see, expressions nested too deeply to read, files that expand without end, endless or
 blocking inputs, and the parser's cache. Each ends fast with a located error, never a
 traceback, a hang or a wrong answer."""
-import contextlib
 import os
 import re
 import resource
-import signal
 import subprocess
 import sys
 import tempfile
@@ -15,6 +13,7 @@ from pathlib import Path
 
 import pytest
 
+from conftest import deadline
 from netgen.cli import main
 from netgen.language import grammar
 
@@ -23,25 +22,6 @@ BASE = "fixed air 300 K\nmass hot 1 J/K\nlink l hot air 1 W/K\nheat h hot 1 W\ns
 # Every character str.splitlines() breaks at besides "\n" (and "\r\n", which stays a line end).
 ODD_BREAKS = {"cr": "\r", "vt": "\x0b", "ff": "\x0c", "fs": "\x1c", "gs": "\x1d", "rs": "\x1e",
               "nel": "\x85", "ls": "\u2028", "ps": "\u2029"}
-
-
-class _TooSlow(BaseException):
-    """Raised by `deadline` in the main thread; a BaseException so nothing on the way catches it."""
-
-
-@contextlib.contextmanager
-def deadline(seconds: float):
-    """Fail a test that hangs (the code before the fix looped or blocked) instead of waiting."""
-    def ring(signum, frame):
-        raise _TooSlow(f"still running after {seconds} s")
-
-    old = signal.signal(signal.SIGALRM, ring)
-    signal.setitimer(signal.ITIMER_REAL, seconds)
-    try:
-        yield
-    finally:
-        signal.setitimer(signal.ITIMER_REAL, 0)
-        signal.signal(signal.SIGALRM, old)
 
 
 def check(capsys, *argv, seconds=10.0):

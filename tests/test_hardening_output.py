@@ -3,7 +3,6 @@ Each case ends fast with a clear message and the documented exit code, never a t
 hang, a leftover process, a leftover file or a pass that compared nothing."""
 from __future__ import annotations
 
-import contextlib
 import os
 import re
 import signal
@@ -20,6 +19,7 @@ import numpy as np
 import pytest
 
 import netgen
+from conftest import deadline
 import netgen.language
 import netgen.regression.verify
 from netgen.cli import main
@@ -39,25 +39,6 @@ steady
 transient until 10 s step 0.5 s
 record T(m) Q(room)
 """
-
-
-class _TooSlow(BaseException):
-    """Raised by `deadline`; a BaseException so that nothing on the way catches it."""
-
-
-@contextlib.contextmanager
-def deadline(seconds: float):
-    """Fail a test that would hang (the code before the fix looped) instead of waiting."""
-    def ring(signum, frame):
-        raise _TooSlow(f"still running after {seconds} s")
-
-    old = signal.signal(signal.SIGALRM, ring)
-    signal.setitimer(signal.ITIMER_REAL, seconds)
-    try:
-        yield
-    finally:
-        signal.setitimer(signal.ITIMER_REAL, 0)
-        signal.signal(signal.SIGALRM, old)
 
 
 @pytest.fixture
