@@ -85,6 +85,12 @@ CASES = [
     ('rated dtmax too big', 'ground g\nfixed a 300 K\nfixed b 300 K\nthermoelectric t pins p g sides a b { rated imax 1 A vmax 1 V dtmax 400 K at 300 K }\n', 4, 69, 'dtmax must be smaller than the hot-side rating temperature'),
     ('material missing property', 'material m { seebeck 1 mV/K }\n', 1, 10, 'material `m` needs `resistivity`, `conductivity`'),
     ('material with time', 'material m { seebeck 1 mV/K * time / 1 s resistivity 1 ohm*m conductivity 1 W/(m*K) }\n', 1, 22, 'a Seebeck coefficient may depend on the temperature `T`, not'),
+    # A degC value is an absolute temperature (1 degC = 274.15 K): against a difference it made a
+    # wrong pass (measured 5.6 K read as -267.6 degC < 1 degC).
+    ('degC limit on a difference', 'fixed air 20 degC\nmass s 10 J/K start 25 degC\nlink l s air 1 W/K\n'
+     'transient until 9 s\nexpect max T(s) - T(air) < 1 degC\n', 5, 28, 'the expression is a temperature difference'),
+    ('degC tolerance', 'fixed air 20 degC\nmass s 10 J/K start 25 degC\nlink l s air 1 W/K\n'
+     'transient until 9 s\nexpect final T(s) = 21 degC within 0.5 degC\n', 5, 36, 'a tolerance is a temperature difference'),
     ('with wrong unit', 'part p(a) {\n  let G = 1 W/K\n  fixed a 300 K\n}\nuse p s(x) with G = 1 K\n', 2, 7, '`with G = ...` is in K, but `G` is in W/K'),
 ]
 

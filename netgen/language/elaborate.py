@@ -15,12 +15,12 @@ from netgen.model.design import (
     Transient, signal_unit,
 )
 from netgen.model.errors import NetgenError, NetgenErrors
-from netgen.model.expr import Const, Wave
+from netgen.model.expr import Const, SignalRef, Wave
 from netgen.language import plate
 from netgen.language.grammar import parser, paused_gc
 from netgen.language.plain_lines import TooDeep
 from netgen.language.parts import MAX_STATEMENTS, PartDef, PartsMixin, TooLarge  # noqa: F401
-from netgen.language.expressions import ExprReader, SIGNAL_KINDS, Typed
+from netgen.language.expressions import ExprReader, SIGNAL_KINDS, Typed, absolute_temperatures
 from netgen.language.overrides import Overrides
 from netgen.language.source import Unreadable, check_breaks, read_file, split_lines
 from netgen.solve.topology import check_design  # the structural checks run on the finished model
@@ -438,12 +438,20 @@ class Elaborator(PartsMixin):
         if lim.dim != typed.dim:
             raise self.err(limit_t, f"the limit is in {U.unit_name(lim.dim)} but the signal is in "
                            f"{U.unit_name(typed.dim)}")
+        refs = [n for n in typed.expr.walk() if isinstance(n, SignalRef) and n.kind == "T"]
+        if lim.celsius and refs and absolute_temperatures(typed.expr) == 0:
+            # 1 degC is 274.15 K: compared with a difference it would pass or fail for the wrong reason.
+            raise self.err(limit_t, "the limit is an absolute temperature (`degC`), but the expression is a "
+                           "temperature difference", "differences are in K: write e.g. `< 1 K`")
         within_t, b1, b2 = opts.children
         within = None
         if within_t is not None:
             w = self.typed(within_t)
             if w.dim != typed.dim and not w.dim.dimensionless:
                 raise self.err(within_t, f"`within` needs {U.unit_name(typed.dim)} or a fraction such as `1 %`")
+            if w.celsius:
+                raise self.err(within_t, "a tolerance is a temperature difference, not an absolute temperature "
+                               "(`degC`)", "write it in K: `within 0.5 K`")
             within = w.value if w.dim == typed.dim else -w.value  # negative marks a relative tolerance
         cmp = str(cmp_tok)
         if cmp == "=" and within is None:

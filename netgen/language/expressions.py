@@ -276,6 +276,25 @@ class ExprReader:
         return Typed(SignalRef(kind, tuple(names), text), dim)
 
 
+def absolute_temperatures(e: Expr) -> int | None:
+    """How many absolute temperatures an expression of signals adds up to: 1 for `T(x)` or
+    `T(x) + 2 K`, 0 for a difference such as `T(a) - T(b)`, None where a sum cannot tell
+    (products of temperatures, functions). Constants count as differences (kelvin)."""
+    if isinstance(e, SignalRef):
+        return 1 if e.kind == "T" else None
+    if isinstance(e, Const):
+        return 0
+    if isinstance(e, Unary):
+        a = absolute_temperatures(e.a)
+        return None if a is None else -a
+    if isinstance(e, Binary) and e.op in ("+", "-"):
+        a, b = absolute_temperatures(e.a), absolute_temperatures(e.b)
+        return None if a is None or b is None else (a + b if e.op == "+" else a - b)
+    if isinstance(e, Binary) and e.op in ("*", "/") and isinstance(e.b, Const):
+        return 0 if absolute_temperatures(e.a) == 0 else None  # a difference scaled stays one
+    return None
+
+
 def _measure(e: Expr) -> tuple[int, int]:
     """Depth and size of an expression tree, a shared part counted wherever it stands (as the
     later stages see it). Iterative, each shared node measured once: a chain of a thousand, or
