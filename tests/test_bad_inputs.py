@@ -68,7 +68,7 @@ CASES = [
     ('sqrt negative', 'fixed r 300 K\nmass m sqrt(-1 J^2/K^2)\n', 2, 8, 'a heat capacity is not a finite number'),
     ('exponent with unit', 'let x = 2 ^ (1 K)\n', 1, 14, 'an exponent must be a plain number, not K'),
     ('unknown part', 'use stage s(a, b)\n', 1, 5, 'unknown part `stage`'),
-    ('part ports', 'part p(a, b) {\n  link l a b 1 W/K\n}\nuse p s(x)\n', 4, 7, 'part `p` has 2 ports (a, b), but 1 nodes are given'),
+    ('part ports', 'part p(a, b) {\n  link l a b 1 W/K\n}\nuse p s(x)\n', 4, 7, 'part `p` has 2 ports (a, b), but 1 node is given'),
     ('recursive part', 'part p(a) {\n  use p q(a)\n}\nuse p s(x)\n', 2, 7, 'part `p` uses itself'),
     ('include non etn', 'include "notes.txt"\n', 1, 9, '`notes.txt` is not a .etn file'),
     ('include missing', 'include "missing.etn"\n', 1, 9, 'cannot read `missing.etn`: No such file or directory'),

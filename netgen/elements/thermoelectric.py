@@ -57,6 +57,7 @@ class Thermoelectric(Kind):
     hottest: float | None = None  # highest allowed side temperature, K
 
     statement = "thermoelectric"
+    attributes = ("pins", "sides", "seebeck", "resistance", "conductance", "couples", "rated", "hottest")
     noun = "thermoelectric modules"
     branch = "I"
     signals = ("I", "P")
@@ -87,8 +88,7 @@ class Thermoelectric(Kind):
     def read(r, t) -> None:
         name_tok, attrs = t.children
         name = r.element_name(name_tok)
-        at = r.attrs(attrs, ("pins", "sides", "seebeck", "resistance", "conductance", "couples", "rated",
-                             "hottest"), "thermoelectric")
+        at = r.attrs(attrs, Thermoelectric.attributes, "thermoelectric")
         for key, example in (("pins", "pins P N"), ("sides", "sides A B")):
             if key not in at:
                 raise r.err(name_tok, f"thermoelectric `{name}` needs `{example}`")

@@ -204,6 +204,19 @@ class Elaborator(PartsMixin):
                 what = f"`{tok}`"
             hint = None
             prev = text[: col - 1].rstrip()
+            opened = _open_brace(self.lines, line, col)
+            if opened and opened[1] != "part" and (tok.type == "$END" or col == 1 or not prev or prev.endswith("{")):
+                at_line, stmt = opened
+                if tok.type == "NAME":
+                    names = _BRACE_ATTRIBUTES.get(stmt) or sorted(
+                        t.lower() for t in e.expected if t.isalpha() and t.isupper() and t not in _TOKEN_WORDS)
+                    close = difflib.get_close_matches(str(tok), names, n=1)
+                    return NetgenError(f"`{tok}` is not an attribute of `{stmt}`", loc,
+                                       f"did you mean `{close[0]}`?" if close else
+                                       f"attributes of `{stmt}`: `" + "`, `".join(names) + "`")
+                if tok.type == "$END" or str(tok) in STATEMENTS:
+                    return NetgenError(f"unexpected {what}: a `}}` is probably missing", loc,
+                                       f"the `{{` at line {at_line} is not closed")
             if tok.type == "NAME" and prev and (prev[-1].isdigit()):
                 return NetgenError(f"unknown unit `{tok}`", loc, _unit_hint(str(tok)))
             elif (col == 1 or not prev) and str(tok) in NOT_YET:
@@ -328,7 +341,8 @@ class Elaborator(PartsMixin):
             raise self.err(name_tok, f"parameter `{name}` is already defined at line {self.param_locs[name].line}")
         if name in ("time", "pi"):
             raise self.err(name_tok, f"`{name}` is a reserved name")
-        if U.is_unit_word(name):
+        # `h` (hours) joined the units late; it stays free as a name (a heat-transfer coefficient).
+        if U.is_unit_word(name) and name != "h":
             raise self.err(name_tok, f"`{name}` is a unit symbol and cannot name a parameter", "choose another name")
         typed = self.typed(value)
         if isinstance(typed.expr, Const) and not math.isfinite(typed.value):
@@ -567,6 +581,28 @@ class Elaborator(PartsMixin):
 
 
 
+# What may stand inside the `{ ... }` of a statement, for the hint on a typo there.
+_BRACE_ATTRIBUTES = {k.statement: k.attributes for k in KINDS if getattr(k, "attributes", ())}
+_BRACE_ATTRIBUTES["material"] = ("seebeck", "resistivity", "conductivity")
+
+
+def _open_brace(lines: list[str], line: int, col: int) -> tuple[int, str] | None:
+    """The line and the statement word of the innermost `{` still open before LINE:COL, if any."""
+    stack = []
+    for i, text in enumerate(lines[:line], 1):
+        text = text[: col - 1] if i == line else text
+        text = text.split("#", 1)[0]
+        for ch in text:
+            if ch == "{":
+                stack.append(i)
+            elif ch == "}" and stack:
+                stack.pop()
+    if not stack:
+        return None
+    words = lines[stack[-1] - 1].split()
+    return stack[-1], (words[0] if words else "")
+
+
 class _Stop(Exception):
     """Too many errors, or one that makes the rest meaningless: stop reading."""
 
@@ -588,7 +624,7 @@ def check_signal(d: Design, kind: str, names: tuple[str, ...]) -> None:
                 raise ValueError(f"unknown node `{n}`", nearest(n, d.nodes))
             if node.domain != want:
                 other = "T" if want == ELECTRICAL else "V"
-                raise ValueError(f"`{n}` is a {node.domain} node", f"write {other}({n})")
+                raise ValueError(f"`{n}` is {'an' if node.domain[0] in 'aeiou' else 'a'} {node.domain} node", f"write {other}({n})")
         return
     if len(names) != 1:
         raise ValueError(f"`{kind}(...)` takes one name", None)
@@ -598,7 +634,7 @@ def check_signal(d: Design, kind: str, names: tuple[str, ...]) -> None:
     if side is not None and e is not None and e.sides:
         if side in e.sides:
             return
-        raise ValueError(f"a {e.statement} side is " + " or ".join(f"`.{x}`" for x in e.sides) + f", not `.{side}`",
+        raise ValueError(f"{'an' if e.statement[0] in 'aeiou' else 'a'} {e.statement} side is " + " or ".join(f"`.{x}`" for x in e.sides) + f", not `.{side}`",
                          None)
     e = elements.get(names[0])
     if e is None:

@@ -165,6 +165,10 @@ class ExprReader:
         before = loc.text[: loc.col - 1] if loc.text else ""
         if len(before) >= 2 and before[-1] in "*/" and not before[-2].isspace():
             # Written straight after `J/` or `W*`: this was meant as part of a unit.
+            if before[:-1].endswith(U.ABSOLUTE_CELSIUS):
+                sym = next(c for c in U.ABSOLUTE_CELSIUS if before[:-1].endswith(c))
+                raise self.err(tree, f"`{sym}` may not appear inside a compound unit",
+                               "write temperature differences in K, e.g. `K/W`")
             raise self.err(tree, f"unknown unit `{name}`", U._suggest(name))
         close = difflib.get_close_matches(name, list(self.params) + list(RESERVED), n=1)
         hint = f"did you mean `{close[0]}`?" if close else "define it first with `let NAME = VALUE`"

@@ -74,6 +74,11 @@ class Overrides(dict):
             typed = ExprReader(params, lambda _t: Loc(self.flag, 1, 1, text)).read(tree)
         except NetgenError as e:
             raise NetgenError(f"{where}: {e.message}", None, e.hint) from None
+        if typed.dim != in_file.dim and typed.dim.dimensionless:
+            unit = U.unit_name(in_file.dim)
+            raise NetgenError(
+                f"{where}: `{name}` is in {unit}, the value given{shown} has no unit", None,
+                f"give it a unit: {unit}" + (f", e.g. --set {name}={text}{unit}" if self.flag == COMMAND_LINE else ""))
         if typed.dim != in_file.dim:
             raise NetgenError(
                 f"{where}: `{name}` is in {U.unit_name(in_file.dim)}, the value given{shown} is in "

@@ -74,8 +74,9 @@ class PartsMixin:
         nodes = [c for c in rest if isinstance(c, Token) and c.type == "NAME"]
         bindings = [c for c in rest if isinstance(c, Tree) and c.data == "binding"]
         if len(nodes) != len(part.ports):
-            raise self.err(inst_tok, f"part `{part.name}` has {len(part.ports)} ports "
-                           f"({', '.join(part.ports) or 'none'}), but {len(nodes)} nodes are given")
+            raise self.err(inst_tok, f"part `{part.name}` has {len(part.ports)} port{'' if len(part.ports) == 1 else 's'} "
+                           f"({', '.join(part.ports) or 'none'}), but {len(nodes)} "
+                           + ("node is given" if len(nodes) == 1 else "nodes are given"))
         inst = self.prefix + str(inst_tok)
         if inst in self.element_locs or any(k.startswith(inst + ".") for k in self.element_locs):
             raise self.err(inst_tok, f"`{inst_tok}` is already used as a name")

@@ -90,6 +90,8 @@ SYMBOLS: dict[str, tuple[float, Dim]] = {
     "Hz": (1.0, FREQUENCY),
     "g": (1e-3, MASS),  # the gram, so that `kg` reads as the kilogram
 }
+# Symbols that take no prefix (`mh` is nothing, and `m` before `in` is not milli).
+UNPREFIXED: dict[str, tuple[float, Dim]] = {"min": (60.0, TIME), "h": (3600.0, TIME)}
 SCALE_WORDS: dict[str, float] = {"%": 0.01, "ppm": 1e-6}
 ABSOLUTE_CELSIUS = ("degC", "°C")
 PREFIXES: dict[str, float] = {
@@ -118,6 +120,8 @@ class UnitError(ValueError):
 def _atom(word: str) -> tuple[float, Dim]:
     if word in SYMBOLS:
         return SYMBOLS[word]
+    if word in UNPREFIXED:
+        return UNPREFIXED[word]
     if word in SCALE_WORDS:
         return SCALE_WORDS[word], NONE
     if len(word) > 1 and word[0] in PREFIXES and word[1:] in SYMBOLS:
@@ -131,7 +135,7 @@ def _suggest(word: str) -> str | None:
     for cand in ["ohm", "Hz", "degC"] + [p + s for p in PREFIXES for s in SYMBOLS] + list(SYMBOLS):
         if cand.lower() == low:
             return f"did you mean `{cand}`? (prefixes and symbols are case-sensitive)"
-    return "units are s K degC W J V A ohm H F m Hz g, with prefixes f p n u m k M G, and % ppm"
+    return "units are s K degC W J V A ohm H F m Hz g, with prefixes f p n u m k M G, and min h % ppm"
 
 
 _TOKEN = re.compile(r"\s*(?:(?P<num>\d+)|(?P<word>[A-Za-zµμΩ°%]+)|(?P<op>[*/^()\-]))")

@@ -139,9 +139,14 @@ def print_figures(res: Results, out) -> None:
 def print_modes(res: Results, out) -> None:
     print(f"\nmodes of the linearised system ({len(res.modes)})", file=out)
     print(f"  {'eigenvalue (1/s)':>28}  {'decay time':>12}  {'frequency':>12}  {'damping':>8}  takes part most", file=out)
+    # An eigenvalue this small against the fastest is round-off around zero: a conserved mode.
+    tiny = 1e-9 * max((abs(complex(m.real, m.imag)) for m in res.modes), default=0.0)
     for m in res.modes:
-        lam = f"{m.real:.5g}" + (f" ± {m.imag:.5g}j" if m.oscillatory else "")
-        decay = f"{m.decay_time:.4g} s" if math.isfinite(m.decay_time) else "grows" if m.real > 0 else "none"
+        conserved = abs(m.real) <= tiny
+        real = 0.0 if conserved else m.real
+        lam = f"{real:.5g}" + (f" ± {m.imag:.5g}j" if m.oscillatory else "")
+        decay = ("conserved" if conserved else f"{m.decay_time:.4g} s" if math.isfinite(m.decay_time)
+                 else "grows" if m.real > 0 else "none")
         freq = f"{m.frequency:.4g} Hz" if m.oscillatory else "-"
         who = ", ".join(f"{n} {100 * s:.0f} %" for n, s in m.nodes)
         print(f"  {lam:>28}  {decay:>12}  {freq:>12}  {m.damping:>8.3f}  {who}", file=out)
