@@ -58,13 +58,14 @@ class Convection(TwoTerminal):
     exponent: float | None = None
 
     statement = "convection"
+    attributes = ("coefficient", "area", "exponent")
     noun = "convection elements"
     signals = ("Q",)
 
     @staticmethod
     def read(r, t) -> None:
         name, loc, na, nb, at = read_between(
-            r, t, "convection", ("coefficient", "area", "exponent"), ("coefficient", "area"),
+            r, t, "convection", Convection.attributes, ("coefficient", "area"),
             f"give the surface: `coefficient 10 {COEFFICIENT_UNIT}  area 0.01 m^2` (and `exponent N`)")
         h = _coefficient(r, at["coefficient"].children[0])
         area = r.const(at["area"].children[0], U.AREA, "a convection area", positive=True)

@@ -49,13 +49,14 @@ class Radiation(TwoTerminal):
     view: float = 1.0
 
     statement = "radiation"
+    attributes = ("emissivity", "area", "view")
     noun = "radiation elements"
     signals = ("Q",)
 
     @staticmethod
     def read(r, t) -> None:
         name, loc, na, nb, at = read_between(
-            r, t, "radiation", ("emissivity", "area", "view"), ("emissivity", "area"),
+            r, t, "radiation", Radiation.attributes, ("emissivity", "area"),
             "give the radiating surface: `emissivity 0.9  area 0.01 m^2` (and `view F`, default 1)")
         eps = fraction(r, at["emissivity"].children[0], "an emissivity", "emissivity 0.9")
         area = r.const(at["area"].children[0], U.AREA, "a radiating area", positive=True)

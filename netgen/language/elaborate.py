@@ -582,7 +582,7 @@ class Elaborator(PartsMixin):
 
 
 # What may stand inside the `{ ... }` of a statement, for the hint on a typo there.
-_BRACE_ATTRIBUTES = {k.statement: k.attributes for k in KINDS if getattr(k, "attributes", ())}
+_BRACE_ATTRIBUTES = {k.statement: k.attributes for k in KINDS if k.attributes}
 _BRACE_ATTRIBUTES["material"] = ("seebeck", "resistivity", "conductivity")
 
 
@@ -601,6 +601,11 @@ def _open_brace(lines: list[str], line: int, col: int) -> tuple[int, str] | None
         return None
     words = lines[stack[-1] - 1].split()
     return stack[-1], (words[0] if words else "")
+
+
+def _a(word: str) -> str:
+    """`an electrical`, `a thermal`: the word with its article."""
+    return f"{'an' if word[:1] in 'aeiou' else 'a'} {word}"
 
 
 class _Stop(Exception):
@@ -624,7 +629,7 @@ def check_signal(d: Design, kind: str, names: tuple[str, ...]) -> None:
                 raise ValueError(f"unknown node `{n}`", nearest(n, d.nodes))
             if node.domain != want:
                 other = "T" if want == ELECTRICAL else "V"
-                raise ValueError(f"`{n}` is {'an' if node.domain[0] in 'aeiou' else 'a'} {node.domain} node", f"write {other}({n})")
+                raise ValueError(f"`{n}` is {_a(node.domain)} node", f"write {other}({n})")
         return
     if len(names) != 1:
         raise ValueError(f"`{kind}(...)` takes one name", None)
@@ -634,7 +639,7 @@ def check_signal(d: Design, kind: str, names: tuple[str, ...]) -> None:
     if side is not None and e is not None and e.sides:
         if side in e.sides:
             return
-        raise ValueError(f"{'an' if e.statement[0] in 'aeiou' else 'a'} {e.statement} side is " + " or ".join(f"`.{x}`" for x in e.sides) + f", not `.{side}`",
+        raise ValueError(f"{_a(e.statement)} side is " + " or ".join(f"`.{x}`" for x in e.sides) + f", not `.{side}`",
                          None)
     e = elements.get(names[0])
     if e is None:
