@@ -8,8 +8,9 @@ from pathlib import Path
 from netgen.analyses import run as _run  # importing it also lets `Design.run()` work
 from netgen.checks.results import Results
 from netgen.language import load as _load_path, load_text
+from netgen.language.source import decoded
 from netgen.language.overrides import from_api
-from netgen.model.design import Design, Loc
+from netgen.model.design import Design
 from netgen.model.errors import NetgenError
 
 _LOAD_HINT = 'e.g. netgen.load("cooler.etn"), netgen.load(Path("cooler.etn")) or netgen.load(text)'
@@ -65,12 +66,5 @@ def _checked_path(path: str) -> str:
 
 
 def _decoded(raw: bytes) -> str:
-    try:
-        return raw.decode("utf-8")
-    except UnicodeDecodeError as e:
-        line = raw[: e.start].count(b"\n") + 1
-        col = e.start - (raw.rfind(b"\n", 0, e.start) + 1) + 1
-        start = raw.rfind(b"\n", 0, e.start) + 1
-        text = raw[start: raw.find(b"\n", e.start) % (len(raw) + 1)].decode("utf-8", "replace")
-        raise NetgenError("the bytes given are not valid UTF-8", Loc("<bytes>", line, col, text),
-                          "decode them yourself, or save the file as UTF-8") from None
+    return decoded(raw, "<bytes>", "the bytes given are not valid UTF-8",
+                   "decode them yourself, or save the file as UTF-8")

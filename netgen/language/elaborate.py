@@ -22,7 +22,7 @@ from netgen.language.plain_lines import TooDeep
 from netgen.language.parts import MAX_STATEMENTS, PartDef, PartsMixin, TooLarge  # noqa: F401
 from netgen.language.expressions import ExprReader, SIGNAL_KINDS, Typed, absolute_temperatures
 from netgen.language.overrides import Overrides
-from netgen.language.source import Unreadable, check_breaks, read_file, split_lines
+from netgen.language.source import Unreadable, check_breaks, decoded, read_file, split_lines
 from netgen.solve.topology import check_design  # the structural checks run on the finished model
 
 MAX_ERRORS = 20
@@ -53,12 +53,7 @@ def read_source(path) -> str:
         raw = read_file(path, str(path))  # a regular file of bounded size only (language/source.py)
     except Unreadable as e:
         raise NetgenError(e.message, None, e.hint) from None
-    try:
-        return raw.decode("utf-8")
-    except UnicodeDecodeError as e:
-        line = raw[: e.start].count(b"\n") + 1
-        col = e.start - (raw.rfind(b"\n", 0, e.start) + 1) + 1
-        raise NetgenError("the file is not valid UTF-8", Loc(str(path), line, col), "save it as UTF-8") from None
+    return decoded(raw, str(path), "the file is not valid UTF-8", "save it as UTF-8")
 
 
 def load_text(text: str, filename: str = "<text>", overrides: dict[str, str] | None = None) -> Design:

@@ -75,6 +75,18 @@ def read_file(path, shown: str) -> bytes:
     return data
 
 
+def decoded(raw: bytes, file: str, message: str, hint: str) -> str:
+    """`raw` as UTF-8 text; otherwise a NetgenError with `message`, at the first bad byte."""
+    try:
+        return raw.decode("utf-8")
+    except UnicodeDecodeError as e:
+        start = raw.rfind(b"\n", 0, e.start) + 1
+        end = raw.find(b"\n", e.start) % (len(raw) + 1)
+        loc = Loc(file, raw[: e.start].count(b"\n") + 1, e.start - start + 1,
+                  raw[start:end].decode("utf-8", "replace"))
+        raise NetgenError(message, loc, hint) from None
+
+
 def _regular(st: os.stat_result, shown: str) -> None:
     if not stat.S_ISREG(st.st_mode):
         what = next((name for test, name in _KINDS if test(st.st_mode)), "not a file")
