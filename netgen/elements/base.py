@@ -93,6 +93,15 @@ class Kind(Element):
         """Values that vary in time, by the attribute that holds them."""
         return {}
 
+    def unknowns(self) -> list[tuple[str, str]]:
+        """(name, kind) of each unknown it adds besides a branch (a controller's states)."""
+        return []
+
+    def resolve(self, design) -> list:
+        """Checks that need the whole file read (what a statement names further down), as
+        located NetgenErrors."""
+        return []
+
     def thermal_conductance(self) -> tuple[str, str, float] | None:
         """(node, node, W/K) near the operating point, for scaling comparison tolerances."""
         return None

@@ -4,6 +4,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from netgen.elements.base import THERMAL_REF, EnergyTerm, Kind
+from netgen.elements.controller import output_node
 from netgen.model import units as U
 from netgen.model.design import THERMAL
 from netgen.model.expr import Wave
@@ -15,11 +16,11 @@ class Heat(Kind):
 
     node: str = ""
     power: Wave | None = None
+    controller: str | None = None  # the controller that drives it, if any
 
     statement = "heat"
     noun = "heat inputs"
     signals = ("Q",)
-    given = "Q"
 
     @property
     def terminals(self):
@@ -35,13 +36,20 @@ class Heat(Kind):
 
     @classmethod
     def stamp(cls, batch, st) -> None:
-        st.source(st.nodes(batch, "node"), 1.0, [e.power for e in batch])
+        free = [e for e in batch if e.controller is None]
+        st.source(st.nodes(free, "node"), 1.0, [e.power for e in free])
+        driven = [e for e in batch if e.controller]
+        st.G.add(st.nodes(driven, "node"), [st.branch_index[f"U({e.controller})"] for e in driven], -1.0)
+
+    @property
+    def given(self):
+        return None if self.controller else "Q"
 
     def branches(self):
         return [(self.node, THERMAL_REF, "Heat")]
 
     def signal(self, kind, side, p):
-        return p.wave(self.power)
+        return p.branch(f"U({self.controller})") if self.controller else p.wave(self.power)
 
     def energy(self):
         return [EnergyTerm("supplied", f"Q({self.name})")]
@@ -53,5 +61,9 @@ class Heat(Kind):
         return {"power": self.power}
 
     def netlist(self, w, s) -> None:
-        name = w.source("I", "heat", s, "0", w.node(self.node), self.power)  # pushes into the node
+        if self.controller:
+            name = f"gheat_{s}"
+            w.add(name, "0", w.node(self.node), output_node(w, self.controller), 0, "1")
+        else:
+            name = w.source("I", "heat", s, "0", w.node(self.node), self.power)  # pushes into the node
         w.row(name, f"heat {self.name}: heat input, W")

@@ -10,6 +10,7 @@ from lark.exceptions import UnexpectedCharacters, UnexpectedEOF, UnexpectedInput
 
 from netgen.model import units as U
 from netgen.elements import KINDS, READERS, Fixed
+from netgen.elements.controller import controlled_dim, controller_signal
 from netgen.model.design import (
     ELECTRICAL, THERMAL, Audit, BaselineTolerance, Design, Expectation, Loc, Material, Modes, Node, Signal, Steady,
     Transient, signal_unit,
@@ -409,7 +410,6 @@ class Elaborator(PartsMixin):
 
     def st_modes(self, t):
         self.design.analyses.append(Modes(self.loc(t)))
-
     def st_transient(self, t):
         if self.design.transient:
             raise self.err(t, "`transient` is given twice")
@@ -535,6 +535,8 @@ class Elaborator(PartsMixin):
     # ---- signals -----------------------------------------------------------------
     def signal_dim(self, kind, names, tree) -> U.Dim:
         self.pending_signals.append((kind, names, tree))
+        if kind == "U":
+            return controlled_dim(self.design, names, lambda m, h: self.err(tree, m, h))
         return {"T": U.TEMPERATURE, "V": U.VOLTAGE, "I": U.CURRENT, "Q": U.POWER, "P": U.POWER}[kind]
 
     def finish(self):
@@ -542,6 +544,8 @@ class Elaborator(PartsMixin):
         plate.finish(self)  # edges join their plate once everything that attaches to them is read
         self.finish_signals()
         d = self.design
+        for e in d.elements:
+            self.errors += e.resolve(d)
         tr = d.transient
         for e in d.expectations:
             needs = "steady" if e.agg == "steady" else "transient"
@@ -614,6 +618,9 @@ def check_signal(d: Design, kind: str, names: tuple[str, ...]) -> None:
         close = difflib.get_close_matches(name, list(pool), n=1)
         return f"did you mean `{close[0]}`?" if close else None
 
+    if kind == "U":
+        controller_signal(d, names)
+        return
     if kind in ("T", "V"):
         want = THERMAL if kind == "T" else ELECTRICAL
         if len(names) != (1 if kind == "T" else len(names)) or not 1 <= len(names) <= 2:

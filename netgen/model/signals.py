@@ -5,7 +5,8 @@ import functools
 import re
 from dataclasses import dataclass, field
 
-SIGNAL_UNITS = {"T": "K", "V": "V", "I": "A", "Q": "W", "P": "W"}
+# U: a controller's output or state, in the unit of the source it drives (one of A, V, W).
+SIGNAL_UNITS = {"T": "K", "V": "V", "I": "A", "Q": "W", "P": "W", "U": ""}
 KINDS = tuple(SIGNAL_UNITS)
 _FORM = re.compile(r"\s*([A-Za-z]+)\s*\(\s*([^(),\s]+)\s*(?:,\s*([^(),\s]+)\s*)?\)\s*")
 

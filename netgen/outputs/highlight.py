@@ -19,20 +19,21 @@ from pygments.token import Comment, Keyword, Name, Number, Operator, Punctuation
 # The statements (a line's first word), the attributes (after the positional parts), the words
 # that join the parts of a statement, the aggregates after `expect` and the kinds after `audit`.
 STATEMENTS = ("design", "let", "mass", "fixed", "link", "heat", "ground", "radiation", "convection",
-              "resistor", "capacitor", "inductor", "source", "switch", "thermoelectric", "material",
+              "resistor", "capacitor", "inductor", "source", "switch", "thermoelectric", "controller", "material",
               "part", "use", "include", "plate", "steady", "transient", "modes", "record", "expect",
               "audit", "baseline")
 ATTRIBUTES = ("start", "heats", "tempco", "closed", "on", "off", "pins", "sides", "seebeck", "resistance",
               "conductance", "couples", "rated", "resistivity", "conductivity", "hottest", "step",
               "tolerance", "emissivity", "area", "view", "coefficient", "exponent", "cell", "thickness",
-              "density", "specific", "capacity")
+              "density", "specific", "capacity", "proportional", "integral", "derivative", "output", "tracking",
+              "filter")
 CLAUSES = ("until", "within", "between", "and", "at", "ref", "material", "leg", "imax", "vmax", "dtmax",
            "by", "with")
 AGGREGATES = ("max", "min", "final", "mean", "steady")
 AUDITS = ("energy", "entropy")
 FUNCTIONS = ("sqrt", "abs", "min", "max", "exp", "log", "sin", "cos", "step", "ramp", "pulse", "sine", "table")
 RESERVED = ("pi", "time")
-SIGNAL_KINDS = "TVIPQ"
+SIGNAL_KINDS = "TVIPQU"
 
 NAME = r"[A-Za-z_][A-Za-z0-9_]*(?:\.[A-Za-z_][A-Za-z0-9_]*)*"
 END = r"(?![A-Za-z0-9_]|\.[A-Za-z_])"  # a whole word: not the start of a longer (or dotted) name

@@ -225,6 +225,10 @@ def assemble(d: Design) -> System:
             branch_index[e.name] = len(names)
             names.append(f"{e.branch}({e.name})")
             kinds.append(AMP if e.branch == "I" else WATT)
+        for label, kind in e.unknowns():
+            branch_index[label] = len(names)
+            names.append(label)
+            kinds.append(kind)
     unknown = set(by_kind) - set(KINDS)
     if unknown:  # pragma: no cover - the reader makes registered kinds only
         raise TypeError(f"unregistered element kinds: {sorted(k.__name__ for k in unknown)}")

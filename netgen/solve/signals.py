@@ -39,6 +39,10 @@ class SignalEval:
         if s.kind in ("T", "V"):
             v = p.node(s.args[0])
             return v - p.node(s.args[1]) if len(s.args) == 2 else v
+        if s.kind == "U":  # a controller's unknown, by its own name
+            if s.canonical not in sys.branch_index:
+                raise KeyError(s.text)
+            return p.branch(s.canonical)
         name, side = s.element_and_side(self._elements.__contains__)
         e = self._elements.get(name)
         if e is None or s.kind not in e.signals + (("Q",) if side in e.sides else ()):

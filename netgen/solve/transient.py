@@ -26,7 +26,7 @@ B2 = (1.0 - GAMMA) ** 2 / (GAMMA * (2.0 - GAMMA))
 K_ERR = (-3.0 * GAMMA**2 + 4.0 * GAMMA - 2.0) / (12.0 * (2.0 - GAMMA))
 
 # Absolute error floors per kind of unknown (ARCHITECTURE.md, default accuracy).
-ATOL = {"T": 1e-3, "V": 1e-6, "I": 1e-6, "Q": 1e-6}
+ATOL = {"T": 1e-3, "V": 1e-6, "I": 1e-6, "Q": 1e-6, "U": 1e-6}
 RTOL = 1e-4
 KEEP_FACTORS = 4  # factorisations kept for reuse, the most recent ones ...
 KEEP_NONZEROS = 6_000_000  # ... while together they hold no more entries than this (~70 MB)
