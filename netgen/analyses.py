@@ -15,10 +15,11 @@ from netgen.checks.audits import energy_audit, entropy_audit, needed_signals
 from netgen.checks.merit import cautions, figures
 from netgen.checks.results import Check, Results, evaluate_expectation, refs
 from netgen.elements import Thermoelectric
-from netgen.model.design import Design, Modes
+from netgen.model.design import Design, Modes, Response
 from netgen.model.errors import NetgenError
 from netgen.solve.assembly import System, assemble
 from netgen.solve.modes import forecast, modes
+from netgen.solve.response import response
 from netgen.solve.signals import SignalEval, signal_texts
 from netgen.solve.steady import solve_dc
 from netgen.solve.transient import integrate
@@ -131,8 +132,27 @@ class ModesAnalysis:
                 res.forecast = forecast(sys, x_lin, x_final, min(span, 12 * slowest))
 
 
-# In the order they run: modes linearise about what the others found.
-ANALYSES = (SteadyAnalysis(), TransientAnalysis(), ModesAnalysis())
+class ResponseAnalysis:
+    """`response SIGNAL to INPUT ...`: the small-signal transfer function at the steady state."""
+
+    name = "response"
+
+    def wanted(self, d: Design) -> bool:
+        return any(isinstance(a, Response) for a in d.analyses)
+
+    def solve(self, r: Run) -> None:
+        d, sys = r.design, r.sys
+        asked = [a for a in d.analyses if isinstance(a, Response)]
+        try:
+            x0 = r.states["steady"][0][0] if "steady" in r.states else solve_dc(sys, 0.0)
+        except NetgenError as e:
+            e.loc = e.loc or asked[0].loc
+            raise
+        r.res.responses = [response(d, sys, r.sig, x0, a) for a in asked]
+
+
+# In the order they run: modes and responses linearise about what the others found.
+ANALYSES = (SteadyAnalysis(), TransientAnalysis(), ModesAnalysis(), ResponseAnalysis())
 
 
 def run(d: Design, progress=None) -> Results:

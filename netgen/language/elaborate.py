@@ -17,7 +17,7 @@ from netgen.model.design import (
 )
 from netgen.model.errors import NetgenError, NetgenErrors
 from netgen.model.expr import Const, SignalRef, Wave
-from netgen.language import plate
+from netgen.language import plate, response
 from netgen.language.grammar import parser, paused_gc
 from netgen.language.plain_lines import TooDeep
 from netgen.language.parts import MAX_STATEMENTS, PartDef, PartsMixin, TooLarge  # noqa: F401
@@ -30,7 +30,7 @@ MAX_ERRORS = 20
 MAX_POINTS = 1_000_000  # points a transient may report (until / step); see also solve.transient.MAX_STEPS
 NOT_YET: dict[str, str] = {}  # statements of LANGUAGE.md not implemented yet, with a hint
 # Statements that make sense only once per design, not inside a reusable part.
-TOP_LEVEL_ONLY = ("design", "steady", "transient", "modes", "record", "expect_agg", "expect_at", "audit",
+TOP_LEVEL_ONLY = ("design", "steady", "transient", "modes", "response", "record", "expect_agg", "expect_at", "audit",
                   "material", "part", "include", "baseline")
 
 _TOKEN_WORDS = {
@@ -410,6 +410,10 @@ class Elaborator(PartsMixin):
 
     def st_modes(self, t):
         self.design.analyses.append(Modes(self.loc(t)))
+
+    def st_response(self, t):
+        response.read(self, t)
+
     def st_transient(self, t):
         if self.design.transient:
             raise self.err(t, "`transient` is given twice")
@@ -546,6 +550,7 @@ class Elaborator(PartsMixin):
         d = self.design
         for e in d.elements:
             self.errors += e.resolve(d)
+        self.errors += response.check(d)
         tr = d.transient
         for e in d.expectations:
             needs = "steady" if e.agg == "steady" else "transient"

@@ -79,6 +79,20 @@ class Modes:
 
 
 @dataclass
+class Response:
+    """`response SIGNAL to INPUT [from F1 to F2] [points N]`: frequencies in Hz (None: chosen
+    from the modes), N log-spaced points (None: the default)."""
+
+    signal: Signal
+    input: str
+    loc: Loc
+    input_loc: Loc | None = None
+    f_from: float | None = None
+    f_to: float | None = None
+    points: int | None = None
+
+
+@dataclass
 class Expectation:
     """`expect ...`: `agg` is max/min/final/mean/steady, or "at" with `at_time`."""
 

@@ -189,6 +189,9 @@ def summary(res: Results) -> dict:
         out["modes"] = [m.as_dict() for m in res.modes]
     if res.forecast:
         out["forecast"] = [dict(vars(f)) for f in res.forecast]
+    if res.responses:
+        out["responses"] = [{"signal": r.signal, "input": r.input, "unit": r.unit, "points": len(r.frequency),
+                             "from": float(r.frequency[0]), "to": float(r.frequency[-1])} for r in res.responses]
     if res.figures:
         out["modules"] = res.figures
     if res.cautions:
@@ -223,6 +226,17 @@ def transient_csv(res: Results) -> str:
     return buf.getvalue()
 
 
+def response_csv(res: Results) -> str:
+    """`frequency` in Hz, then per response `|SIGNAL / INPUT|` and `phase(SIGNAL / INPUT)` in degrees."""
+    buf = io.StringIO()
+    w = csv.writer(buf, lineterminator="\n")
+    w.writerow(["frequency"] + [h for r in res.responses for h in (f"|{r.label}|", f"phase({r.label})")])
+    cols = [res.responses[0].frequency] + [c for r in res.responses for c in (r.magnitude, r.phase)]
+    for row in zip(*cols):
+        w.writerow([repr(float(v)) for v in row])
+    return buf.getvalue()
+
+
 def write_outputs(res: Results, out_dir: Path) -> list[Path]:
     """transient.csv (with a transient) and summary.json, written as one set (`write_set`)."""
     files: dict[Path, str] = {}
@@ -230,6 +244,8 @@ def write_outputs(res: Results, out_dir: Path) -> list[Path]:
         # A transient that stopped early never replaces a complete one written before.
         p = out_dir / ("transient.partial.csv" if res.stats.get("partial") else "transient.csv")
         files[p] = transient_csv(res)
+    if res.responses:
+        files[out_dir / "response.csv"] = response_csv(res)
     p = out_dir / ("summary.partial.json" if res.stats.get("partial") else "summary.json")
     files[p] = json.dumps(_strict(summary(res)), indent=2, allow_nan=False) + "\n"
     write_set(files)

@@ -20,7 +20,7 @@ from pygments.token import Comment, Keyword, Name, Number, Operator, Punctuation
 # that join the parts of a statement, the aggregates after `expect` and the kinds after `audit`.
 STATEMENTS = ("design", "let", "mass", "fixed", "link", "heat", "ground", "radiation", "convection",
               "resistor", "capacitor", "inductor", "source", "switch", "thermoelectric", "controller", "material",
-              "part", "use", "include", "plate", "steady", "transient", "modes", "record", "expect",
+              "part", "use", "include", "plate", "steady", "transient", "modes", "response", "record", "expect",
               "audit", "baseline")
 ATTRIBUTES = ("start", "heats", "tempco", "closed", "on", "off", "pins", "sides", "seebeck", "resistance",
               "conductance", "couples", "rated", "resistivity", "conductivity", "hottest", "step",
@@ -28,7 +28,7 @@ ATTRIBUTES = ("start", "heats", "tempco", "closed", "on", "off", "pins", "sides"
               "density", "specific", "capacity", "proportional", "integral", "derivative", "output", "tracking",
               "filter")
 CLAUSES = ("until", "within", "between", "and", "at", "ref", "material", "leg", "imax", "vmax", "dtmax",
-           "by", "with")
+           "by", "with", "to", "from", "points")
 AGGREGATES = ("max", "min", "final", "mean", "steady")
 AUDITS = ("energy", "entropy")
 FUNCTIONS = ("sqrt", "abs", "min", "max", "exp", "log", "sin", "cos", "step", "ramp", "pulse", "sine", "table")

@@ -248,5 +248,33 @@ def write_plots(res: Results, out_dir: Path, base=None) -> list[Path]:
         svg = out_dir / f"{name}.svg"
         write_atomic(svg, svg_text(fig))
         written += [png, svg]
+    for resp in res.responses:
+        name = "response_" + slug(f"{resp.signal}_{resp.input}")
+        while name in used:
+            name += "_"
+        used.add(name)
+        fig = bode_figure(resp, title)
+        png, svg = out_dir / f"{name}.png", out_dir / f"{name}.svg"
+        write_atomic(png, png_bytes(fig))
+        write_atomic(svg, svg_text(fig))
+        written += [png, svg]
     return written
+
+
+def bode_figure(resp, title: str):
+    """Magnitude (log-log) over phase (degrees), against frequency in Hz."""
+    from matplotlib.figure import Figure
+
+    fig = Figure(figsize=(SIZE[0], 2 * SIZE[1]))
+    top, bottom = fig.subplots(2, 1, sharex=True)
+    top.loglog(resp.frequency, resp.magnitude, color=CURVE, lw=1.6)
+    top.set_ylabel(f"|{resp.label}| ({resp.unit})")
+    top.set_title(f"{title}: response of {resp.signal} to {resp.input}", fontsize=10)
+    bottom.semilogx(resp.frequency, resp.phase, color=CURVE, lw=1.6)
+    bottom.set_ylabel("phase (°)")
+    bottom.set_xlabel("frequency (Hz)")
+    for ax in (top, bottom):
+        ax.grid(True, which="both", color="#dddddd", lw=0.6)
+    fig.tight_layout()
+    return fig
 

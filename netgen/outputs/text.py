@@ -101,6 +101,8 @@ def print_results(res: Results, out=None) -> None:
         print_figures(res, out)
     if res.modes is not None:
         print_modes(res, out)
+    for resp in res.responses:
+        print_response(resp, out)
     if res.checks:
         print("\nexpectations", file=out)
         for c in res.checks:
@@ -134,6 +136,22 @@ def print_figures(res: Results, out) -> None:
             print(f"{head}, electrical power {f['power']:.4g} W", file=out)
     for c in res.cautions:
         print(f"  caution: {c}", file=out)
+
+
+ROWS = 9  # printed rows of a response at most; the CSV has every point
+
+
+def print_response(resp, out) -> None:
+    """A response as a short table: about one row per decade, the ends always."""
+    f = resp.frequency
+    k = len(f)
+    pick = sorted(set(np.linspace(0, k - 1, min(k, ROWS)).round().astype(int).tolist()))
+    unit = resp.unit
+    print(f"\nresponse of {resp.signal} to {resp.input} ({k} points, {f[0]:.4g} Hz to {f[-1]:.4g} Hz)", file=out)
+    print(f"  {'frequency':>12}  {'|' + resp.label + '|':>28}  {'phase':>10}", file=out)
+    mag, ph = resp.magnitude, resp.phase
+    for i in pick:
+        print(f"  {f[i]:>9.4g} Hz  {f'{mag[i]:.5g} {unit}':>28}  {ph[i]:>8.2f} °", file=out)
 
 
 def print_modes(res: Results, out) -> None:

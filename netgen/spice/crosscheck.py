@@ -14,7 +14,9 @@ from netgen.checks.results import Results
 from netgen.model.design import Design, Modes
 from netgen.model.signals import kind_of, parse as parse_signal
 from netgen.solve.signals import SignalEval, signal_texts
+from netgen.solve.steady import solve_dc
 from netgen.spice.resample import Onto, cuts, near, spread
+from netgen.spice.ac import compare as compare_ac
 from netgen.spice.approximations import inputs, jumps, notes
 from netgen.spice.crosscheck_report import Report, Row, Tolerances
 from netgen.spice.netlist import Names, netlist
@@ -77,6 +79,11 @@ def compare(ours: Results, nm: Names, plots: list[Plot], tol: Tolerances,
         rep.jumps = jumps(d)
         rep.window = WINDOW * nm.edge
         rep.transient = _transient(d, sys, nm, ours, tran, tol, rep)
+    if ours.responses:
+        ac = find_plot(plots, "AC Analysis")
+        if ac is None:
+            raise SimulatorError("the simulator wrote no frequency response (.ac) results")
+        rep.response = compare_ac(d, nm, ac, solve_dc(sys, 0.0))
     _compared_all(rep, ours)
     rep.notes = notes(d, nm, rep)
     return rep

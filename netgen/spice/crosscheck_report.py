@@ -80,6 +80,7 @@ class Report:
     command: list[str]
     steady: list[Row] = field(default_factory=list)
     transient: list[Row] = field(default_factory=list)
+    response: list[Row] = field(default_factory=list)  # one per response, over the .ac sweep
     jumps: list[Jump] = field(default_factory=list)
     window: float = 0.0  # half-width of the window around each jump, s
     notes: list[str] = field(default_factory=list)
@@ -89,7 +90,7 @@ class Report:
 
     @property
     def rows(self) -> list[Row]:
-        return self.steady + self.transient
+        return self.steady + self.transient + self.response
 
     @property
     def passed(self) -> bool:
@@ -160,6 +161,12 @@ def render(rep: Report) -> str:
                          "-" if r.at is None else f"{r.at:.6g} s", quantity(r.tol, u),
                          "-" if r.near is None else quantity(r.near, u), r.status])
         out += _grid(["signal", "simulator", "worst |dev|", "rel", "at", "tolerance", "excused", "result"], body)
+    if rep.response:
+        out += ["", "frequency response (.ac): the worst |difference| of the complex ratio over the sweep"]
+        body = [[r.signal, r.source, "-" if r.missing else f"{r.dev:.3g}", _rel(r),
+                 "-" if r.at is None else f"{r.at:.6g} Hz", "-" if r.missing else f"{r.tol:.3g}", r.status]
+                for r in rep.response]
+        out += _grid(["response", "simulator", "worst |dev|", "rel", "at", "tolerance", "result"], body)
     if rep.notes:
         out += ["", "notes:"]
         for n in rep.notes:

@@ -10,6 +10,7 @@ import numpy as np
 from netgen.model.calculus import substitute
 from netgen.model.design import ELECTRICAL, THERMAL, Design
 from netgen.model.expr import Binary, Const, Expr, Func, Shape, Time, Unary, Var, Wave, evaluate
+from netgen.spice.ac import excite
 from netgen.spice.starts import Starts, starts_of
 
 EDGE = 1e-3  # a jump becomes a linear edge this many output steps wide
@@ -378,6 +379,7 @@ def netlist(design: Design, starts: Starts | None = None) -> tuple[str, Names]:
     nm = w.names
     nm.signals = {_signal(design, n): f"V({s})" for n, s in nm.nodes.items() if s != "0"}
     w.write()
+    ac = excite(design, w)  # the first `response`'s input gets AC 1, and the sweep its band
     nm.edge = w.edge
     tr = design.transient
     tail = [OPTIONS]
@@ -393,5 +395,6 @@ def netlist(design: Design, starts: Starts | None = None) -> tuple[str, Names]:
         w.fill_ic(starts.initial)
         tail += [f".ic V({n})={num(v)}" for n, v in w.node_values(starts.initial).items()]
         tail.append(f".tran {num(w.step)} {num(tr.until)} uic")
+    tail += ac
     lines = _header(design, w) + w.lines + w.models + tail + [".end"]
     return "\n".join(lines) + "\n", nm
