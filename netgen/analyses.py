@@ -177,6 +177,7 @@ def _run(d: Design, progress=None) -> Results:
         where = "transient" if "transient" in r.states else "steady"  # the driven state, when there is one
         res.figures = figures(d, lambda text: float(np.atleast_1d(r.signal(where, text))[-1]))
         res.figures_at = "steady state" if where == "steady" else "end of the transient"
+    if any(isinstance(e, Thermoelectric) for e in d.elements) or d.humidity is not None:
         res.cautions = cautions(d, lambda text: np.concatenate([np.atleast_1d(r.signal(a, text)) for a in r.states]))
     res.checks += [_audit(d, a, r.states.get("transient"), r.sig) for a in d.audits]
     return res

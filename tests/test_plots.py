@@ -137,5 +137,5 @@ def test_without_matplotlib_a_clear_message_and_exit_2(warm, tmp_path, args, mon
         monkeypatch.setitem(sys.modules, name, None)
     assert main(argv) == 2
     err = capsys.readouterr().err
-    assert "need matplotlib, which is not installed" in err and "netgen-etn[plot]" in err
+    assert "need matplotlib, which is not installed" in err and 'pip install -e ".[plot]"' in err
     assert "Traceback" not in err and not (tmp_path / "out").exists()

@@ -91,7 +91,7 @@ def parse(text: str):
 
 
 # ---- synopses ----------------------------------------------------------------------------------
-PLACEHOLDERS = {"AGG": "max", "CMP": "<", "SIGNAL": "T(x)"}
+PLACEHOLDERS = {"AGG": "max", "CMP": "<", "SIGNAL": "T(x)", "COMPARISON": "x < x", "EXTREME": "min"}
 
 
 def _line_variants(line: str) -> list[str]:
@@ -156,6 +156,16 @@ COMPLETIONS = {
         steady
         transient until 400 s step 1 s
         """),
+    "humidity 50 % at 20 degC": "fixed room 20 degC\nmass plate 1 J/K\nlink l plate room 1 W/K\n",
+    "expect window T(body) < T(bath) and Q(tec.a) > 0 W lasts > 0.5 s": textwrap.dedent("""\
+        fixed bath 25 degC
+        mass body 0.4 J/K start 55 degC
+        ground p
+        thermoelectric tec pins p n sides body bath { seebeck 55 mV/K resistance 1.6 ohm conductance 0.6 W/K }
+        inductor coil n x 2.2 H start 0 A
+        resistor leads x p 50 mohm
+        transient until 6 s step 0.01 s
+        """),
 }
 
 
@@ -212,6 +222,15 @@ def test_expect_examples_read_as_the_reference_says():
     assert got == [("max", "<"), ("at", "="), ("min", "<"), ("steady", ">"), ("min", ">")]
     assert d.expectations[1].at_time == 60 and d.expectations[1].within == pytest.approx(0.5)
     assert d.expectations[4].between == (300, 303)
+
+
+def test_window_examples_pass_on_the_coil_loop():
+    """The body of examples/coil_swing.etn is colder than its bath from 1.26 s to its lowest
+    point at 2.006 s (tests/test_windows.py checks both against solve_ivp)."""
+    _said("`lasts CMP DURATION` judges the longest window; with no window the measured duration is 0 s.")
+    res = netgen.load(_whole(_example("expect window T(body)"))).run()
+    assert [c.passed for c in res.checks] == [True, True]
+    assert len(res.windows) == 1 and res.windows[0]["line"] == 8
 
 
 def test_expect_steady_needs_a_steady_line():

@@ -55,7 +55,7 @@ def test_celsius_is_absolute():
 
 
 def param(expr: str, name="x"):
-    d = netgen.load(f"let {name} = {expr}\nfixed r 300 K\nmass m 1 J/K\nlink l m r 1 W/K\n")
+    d = netgen.load(f"let T_a = 30 degC\nlet T_b = 20 degC\nlet {name} = {expr}\nfixed r 300 K\nmass m 1 J/K\nlink l m r 1 W/K\n")
     return d.params[name]
 
 
@@ -86,7 +86,14 @@ def test_expressions_carry_dimensions(expr, value, unit):
 @pytest.mark.parametrize("expr, fragment", [
     ("1 K + 1 W", "cannot add W to K"),
     ("1 K / 0", "division by zero"),
-    ("3 degC*2", None),  # allowed: a temperature times two
+    ("3 degC*2", "adds up to 2 absolute temperatures"),  # 3 degC is 276.15 K: twice it is no temperature
+    ("3 K*2", None),  # a number in K may be a difference: allowed
+    ("(T_a + T_b) / 2", None),  # a mean of two absolute temperatures is one
+    ("T_a + T_b", "adds up to 2 absolute temperatures"),
+    ("T_a + 30 degC", "adds up to 2 absolute temperatures"),  # a degC value where a difference is meant
+    ("(T_a - T_b) * 2 W/K", None),  # a difference times anything
+    ("T_a * 2 W/K", "written in degC is multiplied"),
+    ("(T_a + T_b) * 2 W/K", "sum of absolute temperatures is multiplied"),
     ("sin(1 K)", "needs a plain number"),
     ("2 ^ (1 K)", "exponent must be a plain number"),
     ("1 W/degC", "compound"),
@@ -105,7 +112,7 @@ def test_dimension_errors_are_located(expr, fragment):
     with pytest.raises(NetgenError) as e:
         param(expr)
     assert fragment in e.value.render()
-    assert e.value.loc is not None and e.value.loc.line == 1
+    assert e.value.loc is not None and e.value.loc.line == 3
 
 
 @pytest.mark.parametrize("stmt, fragment", [

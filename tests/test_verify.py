@@ -109,7 +109,9 @@ def test_baseline_round_trip(block, capsys):
     # link (20 mW against 1 mW), both largest at the end.
     code, out, _ = verify(capsys, block, "--set", "P=1.02W")
     assert code == 1
-    assert "FAIL  baseline: Q(l) is off by +0.0198" in out and "at t = 20 s" in out
+    # Every signal beyond its tolerance is named (issue 14), the larger share of its range first.
+    assert "FAIL  baseline: 2 signals beyond their tolerance" in out and "at t = 20 s" in out
+    assert "Q(l) is off by +0.0198" in out and "T(m) is off by +0.0396" in out
     assert "baseline was made with no --set, this run with --set P=1.02W" in out
     assert path.read_text() == text  # never written without --update-baseline
 

@@ -9,10 +9,29 @@ import math
 
 import numpy as np
 
-from netgen.model.design import Design
+from netgen.checks.dewpoint import dew_point
+from netgen.model.design import THERMAL, Design
 from netgen.elements import Thermoelectric
 
 FREEZING = 273.15
+# The hot side a ΔT_max is quoted at when a module states no rating temperature: 27 °C, one of
+# the hot-side temperatures catalogues quote (common practice; others use 25 °C or 50 °C).
+CATALOGUE_HOT = 300.15
+
+
+def dt_max_from_hot(m: Thermoelectric, hot: float) -> float:
+    """Ideal ΔT_max with the hot side held at `hot` (no heat load, the best current): the cold
+    side reaches T_c = (√(1 + 2·Z·T_h) − 1)/Z (the ideal cooler equations of CHECKS.md 4). Z is
+    taken at the mean side temperature, found by a few fixed-point steps."""
+    dt = 0.0
+    for _ in range(20):
+        S, R, K = (float(v) for v in m.values_at(hot - 0.5 * dt))
+        Z = S * S / (R * K)
+        new = hot - (math.sqrt(1 + 2 * Z * hot) - 1) / Z
+        if abs(new - dt) < 1e-9:
+            break
+        dt = new
+    return new
 
 
 def figures(d: Design, value) -> list[dict]:
@@ -42,6 +61,8 @@ def figures(d: Design, value) -> list[dict]:
                 row["current_best_cop"] = S * dT / (R * (root - 1))
             row["current_max"] = S * Tc / R
             row["dt_max"] = 0.5 * Z * Tc * Tc
+            row["rated_hot"] = m.rated_hot if m.rated_hot is not None else CATALOGUE_HOT
+            row["dt_max_rated"] = dt_max_from_hot(m, row["rated_hot"])
         elif P < 0 and dT > 0:
             hot_heat = Qa if Ta > Tb else -Qb  # heat taken from the hotter side
             row["mode"] = "generating"
@@ -56,8 +77,20 @@ def figures(d: Design, value) -> list[dict]:
 
 
 def cautions(d: Design, series) -> list[str]:
-    """`series(signal)` gives every solved value of a signal (steady and transient together)."""
+    """`series(signal)` gives every solved value of a signal (steady and transient together).
+    With a `humidity`, every thermal node colder than the dew point is named (water condenses
+    on such a surface); the freezing caution of a module's side stays."""
     notes = []
+    if d.humidity is not None:
+        dew = dew_point(d.humidity.relative, d.humidity.air)
+        for n in d.nodes.values():
+            if n.domain != THERMAL:
+                continue
+            T = np.asarray(series(f"T({n.name})"))
+            if len(T) and float(T.min()) < dew:
+                notes.append(f"`{n.name}` goes down to {T.min() - FREEZING:.1f} °C, below the dew point of "
+                             f"{dew - FREEZING:.1f} °C ({100 * d.humidity.relative:g} % humidity at "
+                             f"{d.humidity.air - FREEZING:.1f} °C): water condenses on it")
     for m in d.of_kind(Thermoelectric):
         for side in (m.a, m.b):
             T = np.asarray(series(f"T({side})"))

@@ -5,8 +5,9 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from netgen.checks import windows as W
 from netgen.model.design import Design, Expectation, Signal
-from netgen.model.expr import SignalRef, evaluate
+from netgen.model.expr import Binary, SignalRef, evaluate
 
 _trapz = getattr(np, "trapezoid", None) or np.trapz
 
@@ -43,6 +44,7 @@ class Results:
     figures_at: str = ""
     cautions: list[str] = field(default_factory=list)
     responses: list = field(default_factory=list)  # solve.response.Response, in the file's order
+    windows: list[dict] = field(default_factory=list)  # {"line", "start", "end", "duration"} per window
 
     def __getitem__(self, signal: str) -> np.ndarray:
         return self.waveforms[signal]
@@ -54,6 +56,18 @@ class Results:
 
 def refs(expr) -> list[SignalRef]:
     return [n for n in expr.walk() if isinstance(n, SignalRef)]
+
+
+def series(expr, t: np.ndarray, signals) -> np.ndarray:
+    """An expression of signals over the times t, undefined (NaN) where a denominator is zero to
+    round-off (below 1e-9 of its own largest size): a ratio such as P(load) / Q(teg.a) before a
+    ramp starts is 0/0 there, not ±5e30."""
+    y = np.array(np.broadcast_to(evaluate(expr, t, signals=signals), t.shape), dtype=float)
+    for node in expr.walk():
+        if isinstance(node, Binary) and node.op == "/" and node.b.uses_signals:
+            den = np.abs(np.broadcast_to(evaluate(node.b, t, signals=signals), t.shape))
+            y[den <= 1e-9 * np.max(den, initial=0.0)] = np.nan
+    return y
 
 
 def evaluate_expectation(e: Expectation, res: Results, signal_of) -> Check:
@@ -69,14 +83,24 @@ def evaluate_expectation(e: Expectation, res: Results, signal_of) -> Check:
             return Check(e.text, float("nan"), e.limit, e.unit, False, e.loc, "the design has no `transient` analysis")
         t = res.time
         values = {n: signal_of("transient", n) for n in names}
-        series = np.broadcast_to(evaluate(e.expr, t, signals=values), t.shape).astype(float)
-        if e.agg == "at":
-            measured = float(np.interp(e.at_time, t, series))
+        if e.agg == "window":
+            return _window(e, res, t, values)
+        y = series(e.expr, t, values)
+        if e.agg.startswith("time of"):
+            mask = ~np.isnan(y)
+            if e.between:
+                mask &= (t >= e.between[0]) & (t <= e.between[1])
+            measured = float(W.extreme(t, y, e.agg[-3:], mask)[0])
+            if not np.isfinite(measured):
+                return Check(e.text, float("nan"), e.limit, e.unit, False, e.loc, "no samples in the interval")
+        elif e.agg == "at":
+            measured = float(np.interp(e.at_time, t, y))
         else:
             mask = np.ones_like(t, dtype=bool)
             if e.between:
                 mask = (t >= e.between[0]) & (t <= e.between[1])
-            seg, tt = series[mask], t[mask]
+            mask &= ~np.isnan(y)  # where a ratio is 0/0 it says nothing
+            seg, tt = y[mask], t[mask]
             if len(seg) == 0:
                 return Check(e.text, float("nan"), e.limit, e.unit, False, e.loc, "no samples in the interval")
             if e.agg == "max":
@@ -88,13 +112,30 @@ def evaluate_expectation(e: Expectation, res: Results, signal_of) -> Check:
             else:  # mean over time, trapezoidal
                 span = tt[-1] - tt[0]
                 measured = float(_trapz(seg, tt) / span) if span > 0 else float(seg[0])
+    return _compare(e, measured)
+
+
+def _compare(e: Expectation, measured: float, detail: str = "") -> Check:
     lim = e.limit
     if e.cmp == "=":
         tol = e.within if e.within >= 0 else -e.within * abs(lim)
         ok = abs(measured - lim) <= tol
     else:
         ok = {"<": measured < lim, "<=": measured <= lim, ">": measured > lim, ">=": measured >= lim}[e.cmp]
-    return Check(e.text, measured, lim, e.unit, bool(ok), e.loc, celsius=e.celsius)
+    return Check(e.text, measured, lim, e.unit, bool(ok), e.loc, detail, celsius=e.celsius)
+
+
+def _window(e: Expectation, res: Results, t, values) -> Check:
+    """`expect window ... lasts CMP D`: every window is kept in the Results; the longest is judged."""
+    margins = [np.nan_to_num(series(m, t, values), nan=-1.0) for m in e.margins]  # 0/0: does not hold
+    found = W.windows(t, margins)
+    line = e.loc.line if e.loc is not None else None
+    res.windows += [{"line": line, "start": float(w.start), "end": float(w.end), "duration": float(w.duration)}
+                    for w in found]
+    longest = max((w.duration for w in found), default=0.0)
+    many = len(found)
+    detail = ("no window" if not many else f"the longest of {many} windows" if many > 1 else "one window")
+    return _compare(e, longest, detail)
 
 
 __all__ = ["Results", "Check", "evaluate_expectation", "Signal"]

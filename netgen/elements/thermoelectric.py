@@ -55,6 +55,7 @@ class Thermoelectric(Kind):
     props: tuple | None = None
     form: str = "lumped"  # lumped | couples | rated
     hottest: float | None = None  # highest allowed side temperature, K
+    rated_hot: float | None = None  # the hot side its ratings are given at (`rated ... at TEMP`), K
 
     statement = "thermoelectric"
     attributes = ("pins", "sides", "seebeck", "resistance", "conductance", "couples", "rated", "hottest")
@@ -116,7 +117,7 @@ class Thermoelectric(Kind):
             i_t, v_t, dt_t, th_t = at["rated"].children
             imax = r.const(i_t, U.CURRENT, "imax", positive=True)
             vmax = r.const(v_t, U.VOLTAGE, "vmax", positive=True)
-            dtmax = r.const(dt_t, U.TEMPERATURE, "dtmax", positive=True)
+            dtmax = r.difference(dt_t, "dtmax", positive=True)
             th = r.const(th_t, U.TEMPERATURE, "the rating temperature", positive=True)
             if dtmax >= th:
                 raise r.err(dt_t, "dtmax must be smaller than the hot-side rating temperature")
@@ -124,6 +125,7 @@ class Thermoelectric(Kind):
             e.seebeck = vmax / th
             e.resistance = vmax * (th - dtmax) / (th * imax)
             e.conductance = vmax * imax * (th - dtmax) / (2 * th * dtmax)
+            e.rated_hot = th
         else:
             _read_couples(r, e, at)
         if "hottest" in at:

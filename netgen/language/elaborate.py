@@ -12,16 +12,17 @@ from netgen.model import units as U
 from netgen.elements import KINDS, READERS, Fixed
 from netgen.elements.controller import controlled_dim, controller_signal
 from netgen.model.design import (
-    ELECTRICAL, THERMAL, Audit, BaselineTolerance, Design, Expectation, Loc, Material, Modes, Node, Signal, Steady,
-    Transient, signal_unit,
+    ELECTRICAL, THERMAL, Audit, BaselineTolerance, Design, Expectation, Humidity, Loc, Material, Modes, Node, Signal,
+    Steady, Transient, signal_unit,
 )
 from netgen.model.errors import NetgenError, NetgenErrors
-from netgen.model.expr import Const, SignalRef, Wave
+from netgen.model.expr import Binary, Const, Func, SignalRef, Wave
 from netgen.language import plate, response
 from netgen.language.grammar import parser, paused_gc
 from netgen.language.plain_lines import TooDeep
 from netgen.language.parts import MAX_STATEMENTS, PartDef, PartsMixin, TooLarge  # noqa: F401
-from netgen.language.expressions import ExprReader, SIGNAL_KINDS, Typed, absolute_temperatures
+from netgen.language import affine
+from netgen.language.expressions import ExprReader, SIGNAL_KINDS, Typed
 from netgen.language.overrides import Overrides
 from netgen.language.source import Unreadable, check_breaks, decoded, read_file, split_lines
 from netgen.solve.topology import check_design  # the structural checks run on the finished model
@@ -270,6 +271,13 @@ class Elaborator(PartsMixin):
             raise self.err(tree, f"{what} may not be negative")
         return v
 
+    def difference(self, tree, what: str, positive=False) -> float:
+        """A constant temperature difference: a degC value there is refused (affine.py)."""
+        if affine.is_absolute(self.typed(tree)):
+            raise self.err(tree, f"{what} is a temperature difference, but this is an absolute temperature (degC)",
+                           "write differences in K, e.g. `70 K`")
+        return self.const(tree, U.TEMPERATURE, what, positive=positive)
+
     def need_dim(self, tree, t: Typed, dims, what):
         if t.dim in dims:
             return
@@ -451,18 +459,20 @@ class Elaborator(PartsMixin):
         if lim.dim != typed.dim:
             raise self.err(limit_t, f"the limit is in {U.unit_name(lim.dim)} but the signal is in "
                            f"{U.unit_name(typed.dim)}")
-        refs = [n for n in typed.expr.walk() if isinstance(n, SignalRef) and n.kind == "T"]
-        if lim.celsius and refs and absolute_temperatures(typed.expr) == 0:
+        if affine.is_difference(typed) and affine.is_absolute(lim):
             # 1 degC is 274.15 K: compared with a difference it would pass or fail for the wrong reason.
             raise self.err(limit_t, "the limit is an absolute temperature (`degC`), but the expression is a "
                            "temperature difference", "differences are in K: write e.g. `< 1 K`")
+        if affine.is_absolute(typed) and affine.is_difference(lim) and lim.degc:
+            raise self.err(limit_t, "the limit is a difference of two temperatures, but the expression is an "
+                           "absolute temperature", "write the limit as one temperature, e.g. `< 30 degC`")
         within_t, b1, b2 = opts.children
         within = None
         if within_t is not None:
             w = self.typed(within_t)
             if w.dim != typed.dim and not w.dim.dimensionless:
                 raise self.err(within_t, f"`within` needs {U.unit_name(typed.dim)} or a fraction such as `1 %`")
-            if w.celsius:
+            if w.celsius or affine.is_absolute(w):
                 raise self.err(within_t, "a tolerance is a temperature difference, not an absolute temperature "
                                "(`degC`)", "write it in K: `within 0.5 K`")
             within = w.value if w.dim == typed.dim else -w.value  # negative marks a relative tolerance
@@ -492,6 +502,75 @@ class Elaborator(PartsMixin):
         at_time = self.const(time_t, U.TIME, "a time", nonneg=True)
         self._expect_common(t, expr_t, cmp_tok, limit_t, opts, "at", at_time)
 
+    def st_expect_window(self, t):
+        """`expect window A < B and C > D lasts CMP DURATION` (netgen/checks/windows.py)."""
+        *comparisons, cmp_tok, dur_t = t.children
+        margins = []
+        for c in comparisons:
+            lhs_t, op, rhs_t = c.children
+            lhs, rhs = self.typed(lhs_t, signals_ok=True), self.typed(rhs_t, signals_ok=True)
+            if str(op) == "=":
+                raise self.err(op, "a window's condition compares with `<`, `<=`, `>` or `>=`, not `=`",
+                               "a value equals another only at instants; give a band as `A > X and A < Y`")
+            if lhs.dim != rhs.dim:
+                raise self.err(rhs_t, f"this side is in {U.unit_name(rhs.dim)} but the other in {U.unit_name(lhs.dim)}")
+            for one, other, tree in ((lhs, rhs, rhs_t), (rhs, lhs, lhs_t)):
+                if affine.is_difference(one) and affine.is_absolute(other):
+                    raise self.err(tree, "this side is an absolute temperature (degC), but the other is a "
+                                   "temperature difference", "differences are in K: write e.g. `> 2 K`")
+            if not (lhs.expr.uses_signals or rhs.expr.uses_signals):
+                raise self.err(c, "this comparison names no signal, so it holds always or never",
+                               "compare a signal, e.g. `T(body) < T(bath)`")
+            less = str(op) in ("<", "<=")
+            margins.append(Binary("-", rhs.expr, lhs.expr) if less else Binary("-", lhs.expr, rhs.expr))
+        dur = self.typed(dur_t)
+        if not isinstance(dur.expr, Const):
+            raise self.err(dur_t, "the duration must be constant")
+        self.need_dim(dur_t, dur, (U.TIME,), "a window's duration")
+        cmp = str(cmp_tok)
+        if cmp == "=":
+            raise self.err(cmp_tok, "`lasts` compares with `<`, `<=`, `>` or `>=`",
+                           "e.g. `lasts > 1 s`, or two windows expectations for a band")
+        text = self.loc(t).text.strip()
+        self.design.expectations.append(Expectation(
+            "window", Func("min", tuple(margins)) if len(margins) > 1 else margins[0], cmp, dur.value, "s", text,
+            self.loc(t), margins=tuple(margins)))
+
+    def st_expect_time(self, t):
+        """`expect time of min|max EXPR CMP TIME [within TOL] [between T1 and T2]`."""
+        agg_tok, expr_t, cmp_tok, limit_t, opts = t.children
+        which = str(agg_tok)
+        if which not in ("min", "max"):
+            raise self.err(agg_tok, f"`time of` takes `min` or `max`, not `{which}`",
+                           "e.g. `expect time of min T(body) = 3.4 s within 2 ms`")
+        typed = self.typed(expr_t, signals_ok=True)
+        if not typed.expr.uses_signals:
+            raise self.err(expr_t, "`time of` needs an expression of signals", "e.g. `time of min T(body)`")
+        lim = self.typed(limit_t)
+        if not isinstance(lim.expr, Const):
+            raise self.err(limit_t, "the time must be constant")
+        self.need_dim(limit_t, lim, (U.TIME,), "the time of an extreme")
+        within_t, b1, b2 = opts.children
+        within = None
+        if within_t is not None:
+            w = self.typed(within_t)
+            if w.dim != U.TIME and not w.dim.dimensionless:
+                raise self.err(within_t, "`within` needs a time (e.g. `2 ms`) or a fraction such as `1 %`")
+            within = w.value if w.dim == U.TIME else -w.value
+        cmp = str(cmp_tok)
+        if cmp == "=" and within is None:
+            raise self.err(cmp_tok, "`=` needs `within TOL`", "e.g. `= 3.4 s within 2 ms`")
+        if cmp != "=" and within is not None:
+            raise self.err(within_t, f"`within` only goes with `=`, not with `{cmp}`")
+        between = None
+        if b1 is not None:
+            between = (self.const(b1, U.TIME, "a time"), self.const(b2, U.TIME, "a time"))
+            if between[1] < between[0]:
+                raise self.err(b1, "`between` needs the earlier time first")
+        text = self.loc(t).text.strip()
+        self.design.expectations.append(Expectation(
+            f"time of {which}", typed.expr, cmp, lim.value, "s", text, self.loc(t), within=within, between=between))
+
     def st_baseline(self, t):
         *sig_trees, first, second = t.children
         signals = []
@@ -516,7 +595,7 @@ class Elaborator(PartsMixin):
                 entry.rtol = typed.value
                 continue
             unit = U.unit_name(typed.dim)
-            if unit not in units or typed.celsius:
+            if unit not in units or typed.celsius or affine.is_absolute(typed):
                 raise self.err(tree, f"an absolute tolerance is a difference in K, V, A or W, not {unit}"
                                + (" (a temperature in degC is absolute: write K)" if typed.celsius else ""))
             if entry.atol is not None:
@@ -527,6 +606,23 @@ class Elaborator(PartsMixin):
                                "list the signals of one unit together")
             entry.atol, entry.unit = typed.value, unit
         self.design.baseline_tolerances.append(entry)
+
+    def st_humidity(self, t):
+        """`humidity 50 % at 20 degC`: the relative humidity of the air at its temperature."""
+        rh_t, air_t = t.children
+        if self.design.humidity is not None:
+            raise self.err(t, f"`humidity` is given twice (first at line {self.design.humidity.loc.line})")
+        rh = self.const(rh_t, U.NONE, "a relative humidity")
+        if not 0 < rh <= 1:
+            raise self.err(rh_t, f"a relative humidity is more than 0 % and at most 100 %, not {100 * rh:g} %",
+                           "write it as a percentage, e.g. `humidity 50 % at 20 degC`")
+        air = self.const(air_t, U.TEMPERATURE, "the air temperature", positive=True)
+        if affine.is_difference(self.typed(air_t)):
+            raise self.err(air_t, "the air temperature is a difference here", "write it as one temperature, e.g. `20 degC`")
+        if not 223.15 <= air <= 373.15:
+            raise self.err(air_t, f"the air temperature is {air - U.ZERO_CELSIUS:.1f} degC; the dew-point formula "
+                           "holds from -50 degC to 100 degC", "give the air temperature in degC or K")
+        self.design.humidity = Humidity(rh, air, self.loc(t))
 
     def st_audit(self, t):
         kind_tok, within_t = t.children

@@ -12,6 +12,7 @@ from lark import Token, Tree
 from netgen.model import units as U
 from netgen.model.errors import NetgenError
 from netgen.model.expr import Binary, Const, Expr, Func, Shape, SignalRef, Time, Unary, Var, evaluate
+from netgen.language import affine
 from netgen.language.plain_lines import MAX_DEPTH
 
 _NUM = re.compile(r"^((?:[0-9]+(?:\.[0-9]+)?|\.[0-9]+)(?:[eE][+-]?[0-9]+)?)[ \t]*(.*)$")
@@ -25,11 +26,15 @@ RESERVED = ("time", "pi")
 
 @dataclass
 class Typed:
-    """An expression with its dimension; `celsius` marks a bare `degC` literal."""
+    """An expression with its dimension; `celsius` marks a bare `degC` literal. For a
+    temperature, `weight` is 1 for an absolute one and 0 for a difference (None: cannot tell)
+    and `degc` marks one that holds a value written in degC (netgen/language/affine.py)."""
 
     expr: Expr
     dim: U.Dim
     celsius: bool = False
+    weight: float | None = None
+    degc: bool = False
 
     @property
     def constant(self) -> bool:
@@ -69,11 +74,14 @@ class ExprReader:
 
     def read(self, tree) -> Typed:
         t = self._read(tree)
+        problem = affine.complete_problem(t)
+        if problem:
+            raise self.err(tree, problem, affine.HINT_SUM)
         if not isinstance(t.expr, Const):
             self._bounded(t.expr, tree)  # before anything walks it
         if (not isinstance(t.expr, Const) and not t.expr.uses_time and not t.expr.uses_signals
                 and not t.expr.uses_vars):
-            t = Typed(Const(float(evaluate(t.expr))), t.dim, t.celsius)
+            t = Typed(Const(float(evaluate(t.expr))), t.dim, t.celsius, t.weight, t.degc)
         return t
 
     def _bounded(self, e: Expr, tree) -> None:
@@ -103,6 +111,8 @@ class ExprReader:
             except U.UnitError as e:
                 raise self.err(tree, str(e), e.hint) from None
             self.celsius_seen |= celsius
+            if dim == U.TEMPERATURE:  # degC is absolute; a number in K may be either (None)
+                return Typed(Const(v), dim, celsius, 1.0 if celsius else None, celsius)
             return Typed(Const(v), dim, celsius)
         if kind == "name":
             return self._name(tree)
@@ -110,8 +120,8 @@ class ExprReader:
             a = self._read(tree.children[0])
             if a.celsius and isinstance(a.expr, Const) and tree.children[0].data == "number":
                 # `-25 degC` is minus twenty-five degrees Celsius, not minus 298.15 K.
-                return Typed(Const(2 * U.ZERO_CELSIUS - a.expr.v), a.dim, True)
-            return Typed(_fold(Unary("neg", a.expr)), a.dim)
+                return Typed(Const(2 * U.ZERO_CELSIUS - a.expr.v), a.dim, True, 1.0, True)
+            return Typed(_fold(Unary("neg", a.expr)), a.dim, False, None if a.weight is None else -a.weight, a.degc)
         if kind == "unary":  # unary plus keeps its operand (lark inlines `?unary`)
             return self._read(tree.children[0])
         if kind in ("add", "sub"):
@@ -122,19 +132,22 @@ class ExprReader:
                     f"{'to' if kind == 'add' else 'from'} {U.unit_name(a.dim)}",
                     "both sides of + and - need the same unit",
                 )
-            return Typed(_fold(Binary("+" if kind == "add" else "-", a.expr, b.expr)), a.dim)
+            weight, degc = affine.add(a, b, 1 if kind == "add" else -1)
+            return Typed(_fold(Binary("+" if kind == "add" else "-", a.expr, b.expr)), a.dim, False, weight, degc)
         if kind in ("mul", "div"):
             a, b = self._read(tree.children[0]), self._read(tree.children[1])
             if kind == "div" and isinstance(b.expr, Const) and b.expr.v == 0:
                 raise self.err(tree.children[1], "division by zero")
             dim = a.dim * b.dim if kind == "mul" else a.dim / b.dim
-            return Typed(_fold(Binary("*" if kind == "mul" else "/", a.expr, b.expr)), dim)
+            return Typed(_fold(Binary("*" if kind == "mul" else "/", a.expr, b.expr)), dim, False,
+                         *self._product_weight(tree, kind, a, b, dim))
         if kind == "pow":
             a, b = self._read(tree.children[0]), self._read(tree.children[1])
             if not b.dim.dimensionless:
                 raise self.err(tree.children[1], f"an exponent must be a plain number, not {U.unit_name(b.dim)}")
             if a.dim.dimensionless:
                 return Typed(_fold(Binary("^", a.expr, b.expr)), a.dim)
+            self._product_weight(tree, "pow", a, b, None)
             if not isinstance(b.expr, Const):
                 raise self.err(tree.children[1], "the exponent of a quantity with a unit must be constant")
             p = Fraction(b.expr.v).limit_denominator(12)
@@ -147,12 +160,27 @@ class ExprReader:
             return self._read(tree.children[0])
         raise self.err(tree, f"unexpected `{kind}` in an expression")
 
+    def _product_weight(self, tree, kind, a: Typed, b: Typed, dim):
+        """The affine rule for *, / and ^ (netgen/language/affine.py): a plain constant scales the
+        weight; otherwise only differences and measured absolute temperatures may be multiplied."""
+        pairs = [(a, b), (b, a)] if kind == "mul" else [(a, b)] if kind == "div" else []
+        for temp, other in pairs:  # (a temperature, a plain constant)
+            if temp.dim == U.TEMPERATURE and other.dim.dimensionless and isinstance(other.expr, Const):
+                return affine.scale(temp, other.value if kind == "mul" else 1.0 / other.value)
+        problem = affine.product_problem(a, b)
+        if problem == "sum":
+            raise self.err(tree, "a sum of absolute temperatures is multiplied here", affine.HINT_SUM)
+        if problem == "degc":
+            raise self.err(tree, "a temperature written in degC is multiplied here", affine.HINT_DEGC)
+        return affine.product_weight(a, b, dim)
+
     def _name(self, tree) -> Typed:
         name = str(tree.children[0])
         if name == "time":
             return Typed(Time(), U.TIME)
         if name in self.variables:
-            return Typed(Var(name), self.variables[name])
+            d = self.variables[name]
+            return Typed(Var(name), d, False, 1.0 if d == U.TEMPERATURE else None)
         if name == "pi":
             return Typed(Const(math.pi), U.NONE)
         if name in U.ABSOLUTE_CELSIUS:
@@ -160,7 +188,7 @@ class ExprReader:
                            "write temperature differences in K, e.g. `W/K`")
         if name in self.params:
             p = self.params[name]
-            return Typed(p.expr, p.dim, p.celsius)
+            return Typed(p.expr, p.dim, p.celsius, p.weight, p.degc)
         loc = self.loc_of(tree)
         before = loc.text[: loc.col - 1] if loc.text else ""
         if len(before) >= 2 and before[-1] in "*/" and not before[-2].isspace():
@@ -206,14 +234,18 @@ class ExprReader:
             for a in args[1:]:
                 if a.dim != args[0].dim:
                     raise self.err(tree, f"`{fname}` needs arguments of one unit")
-            return Typed(_fold(Func(fname, tuple(a.expr for a in args))), args[0].dim)
+            weights = {a.weight for a in args}
+            weight = weights.pop() if len(weights) == 1 else None
+            return Typed(_fold(Func(fname, tuple(a.expr for a in args))), args[0].dim, False, weight,
+                         any(a.degc for a in args))
         if len(args) != 1:
             raise self.err(tree, f"`{fname}` takes one argument, not {len(args)}")
         a = args[0]
         if fname == "sqrt":
+            self._product_weight(tree, "pow", a, Typed(Const(0.5), U.NONE), None)
             return Typed(_fold(Func(fname, (a.expr,))), a.dim ** Fraction(1, 2))
         if fname == "abs":
-            return Typed(_fold(Func(fname, (a.expr,))), a.dim)
+            return Typed(_fold(Func(fname, (a.expr,))), a.dim, False, a.weight, a.degc)
         if not a.dim.dimensionless:
             raise self.err(tree, f"`{fname}` needs a plain number, not {U.unit_name(a.dim)}")
         if fname == "log" and isinstance(a.expr, Const) and a.expr.v <= 0:
@@ -246,7 +278,9 @@ class ExprReader:
             tv = v[0::2]
             if any(b < a for a, b in zip(tv, tv[1:])):
                 raise self.err(tree, "the times of a `table` must not decrease")
-            return Typed(Shape("table", tuple(v)), vals[0].dim, vals[0].celsius)
+            weights = {x.weight for x in vals}
+            return Typed(Shape("table", tuple(v)), vals[0].dim, vals[0].celsius,
+                         weights.pop() if len(weights) == 1 else None, any(x.degc for x in vals))
         value_idx = {"step": (0, 1), "ramp": (0, 1), "pulse": (0, 1), "sine": (0, 1)}[fname]
         d = args[value_idx[0]].dim
         if args[value_idx[1]].dim != d:
@@ -254,7 +288,7 @@ class ExprReader:
                            f"{U.unit_name(args[value_idx[1]].dim)}")
         if fname == "sine":
             self._need(tree, args[2], U.FREQUENCY, "the frequency")
-            if args[1].celsius:
+            if args[1].celsius or affine.is_absolute(args[1]):
                 raise self.err(tree, "the amplitude of `sine` is a difference: write it in K")
         else:
             for a in args[2:]:
@@ -263,7 +297,11 @@ class ExprReader:
             raise self.err(tree, "a `ramp` must stop after it starts")
         if fname == "pulse" and (min(v[3:7]) < 0):
             raise self.err(tree, "the times of a `pulse` may not be negative")
-        return Typed(Shape(fname, tuple(v)), d, args[0].celsius)
+        if fname == "sine":
+            weight = args[0].weight
+        else:
+            weight = args[0].weight if args[0].weight == args[1].weight else None
+        return Typed(Shape(fname, tuple(v)), d, args[0].celsius, weight, args[0].degc or args[1].degc)
 
     def _need(self, tree, a: Typed, dim: U.Dim, what: str):
         if a.dim != dim:
@@ -277,26 +315,8 @@ class ExprReader:
             names.append(str(a.children[0]))
         text = f"{kind}({', '.join(names)})"
         dim = self.signal_dim(kind, tuple(names), tree)
-        return Typed(SignalRef(kind, tuple(names), text), dim)
-
-
-def absolute_temperatures(e: Expr) -> int | None:
-    """How many absolute temperatures an expression of signals adds up to: 1 for `T(x)` or
-    `T(x) + 2 K`, 0 for a difference such as `T(a) - T(b)`, None where a sum cannot tell
-    (products of temperatures, functions). Constants count as differences (kelvin)."""
-    if isinstance(e, SignalRef):
-        return 1 if e.kind == "T" else None
-    if isinstance(e, Const):
-        return 0
-    if isinstance(e, Unary):
-        a = absolute_temperatures(e.a)
-        return None if a is None else -a
-    if isinstance(e, Binary) and e.op in ("+", "-"):
-        a, b = absolute_temperatures(e.a), absolute_temperatures(e.b)
-        return None if a is None or b is None else (a + b if e.op == "+" else a - b)
-    if isinstance(e, Binary) and e.op in ("*", "/") and isinstance(e.b, Const):
-        return 0 if absolute_temperatures(e.a) == 0 else None  # a difference scaled stays one
-    return None
+        weight = (1.0 if len(names) == 1 else 0.0) if kind == "T" else None  # T(a, b) is a difference
+        return Typed(SignalRef(kind, tuple(names), text), dim, False, weight)
 
 
 def _measure(e: Expr) -> tuple[int, int]:

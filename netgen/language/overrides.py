@@ -56,7 +56,7 @@ class Overrides(dict):
         v = float(value)
         if not math.isfinite(v):
             raise NetgenError(f"{self._where(name)}: {value!r} is not a finite number", None)
-        return Typed(Const(v), in_file.dim)  # SI in the parameter's dimension (kelvin for a temperature)
+        return Typed(Const(v), in_file.dim, weight=in_file.weight)  # SI in the parameter's dimension (kelvin for a temperature)
 
     def _text(self, name: str, text: str, in_file: Typed, params: dict[str, Typed]) -> Typed:
         where = self._where(name)
@@ -83,6 +83,8 @@ class Overrides(dict):
             raise NetgenError(
                 f"{where}: `{name}` is in {U.unit_name(in_file.dim)}, the value given{shown} is in "
                 f"{U.unit_name(typed.dim)}", None)
+        if typed.constant and not typed.degc and typed.weight is not None:
+            typed.weight = in_file.weight  # a number in K takes the place of what the file wrote
         return typed
 
 

@@ -94,7 +94,9 @@ class Response:
 
 @dataclass
 class Expectation:
-    """`expect ...`: `agg` is max/min/final/mean/steady, or "at" with `at_time`."""
+    """`expect ...`: `agg` is max/min/final/mean/steady, "at" with `at_time`, "window" (a
+    condition whose `margins` are each positive where one comparison holds; `expr` is their
+    `min` and the limit a duration), or "time of min" / "time of max" (the limit a time)."""
 
     agg: str
     expr: Expr
@@ -107,6 +109,16 @@ class Expectation:
     between: tuple[float, float] | None = None
     at_time: float | None = None
     celsius: bool = False
+    margins: tuple = ()
+
+
+@dataclass
+class Humidity:
+    """`humidity RH at TEMP`: the air around the design, for the dew-point caution."""
+
+    relative: float  # 0..1
+    air: float  # K
+    loc: Loc
 
 
 @dataclass
@@ -146,6 +158,7 @@ class Design:
     materials: dict[str, Material] = field(default_factory=dict)
     baseline_tolerances: list[BaselineTolerance] = field(default_factory=list)
     celsius: bool = False  # the text wrote temperatures in degC: show °C beside K
+    humidity: Humidity | None = None
 
     def element(self, name: str) -> Element | None:
         for e in self.elements:

@@ -13,6 +13,7 @@ from pathlib import Path
 import numpy as np
 
 from netgen import __version__
+from netgen.checks.dewpoint import dew_point
 from netgen.checks.results import Results
 from netgen.model.design import Design
 from netgen.model.errors import NetgenError
@@ -196,11 +197,15 @@ def summary(res: Results) -> dict:
         out["modules"] = res.figures
     if res.cautions:
         out["cautions"] = res.cautions
+    if d.humidity is not None:
+        out["dew_point"] = dew_point(d.humidity.relative, d.humidity.air)
     if res.checks:
         out["expectations"] = [
             {"text": c.text, "measured": c.measured, "limit": c.limit, "unit": c.unit, "passed": c.passed}
             for c in res.checks
         ]
+    if res.windows:
+        out["windows"] = [{k: w[k] for k in ("line", "start", "end", "duration")} for w in res.windows]
     return out
 
 

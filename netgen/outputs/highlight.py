@@ -21,14 +21,14 @@ from pygments.token import Comment, Keyword, Name, Number, Operator, Punctuation
 STATEMENTS = ("design", "let", "mass", "fixed", "link", "heat", "ground", "radiation", "convection",
               "resistor", "capacitor", "inductor", "source", "switch", "thermoelectric", "controller", "material",
               "part", "use", "include", "plate", "steady", "transient", "modes", "response", "record", "expect",
-              "audit", "baseline")
+              "audit", "baseline", "humidity")
 ATTRIBUTES = ("start", "heats", "tempco", "closed", "on", "off", "pins", "sides", "seebeck", "resistance",
               "conductance", "couples", "rated", "resistivity", "conductivity", "hottest", "step",
               "tolerance", "emissivity", "area", "view", "coefficient", "exponent", "cell", "thickness",
               "density", "specific", "capacity", "proportional", "integral", "derivative", "output", "tracking",
               "filter")
 CLAUSES = ("until", "within", "between", "and", "at", "ref", "material", "leg", "imax", "vmax", "dtmax",
-           "by", "with", "to", "from", "points")
+           "by", "with", "to", "from", "points", "window", "lasts", "of")
 AGGREGATES = ("max", "min", "final", "mean", "steady")
 AUDITS = ("energy", "entropy")
 FUNCTIONS = ("sqrt", "abs", "min", "max", "exp", "log", "sin", "cos", "step", "ramp", "pulse", "sine", "table")

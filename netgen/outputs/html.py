@@ -8,8 +8,9 @@ import math
 from pathlib import Path
 
 from netgen import __version__
+from netgen.model.signals import signal_unit
 from netgen.outputs import plots
-from netgen.outputs.text import _value, fmt
+from netgen.outputs.text import ZERO_C, _value, fmt, humidity_line, scales
 from netgen.regression.verify import Outcome
 
 STYLE = """
@@ -113,6 +114,85 @@ def _steady(o: Outcome) -> str:
     return "<h3>Steady state</h3>\n" + _table(head, rows)
 
 
+def _ranges(o: Outcome) -> str:
+    """The transient's min, max and final value of each reported signal, as `netgen run` prints."""
+    res = o.results
+    if res.time is None:
+        return ""
+    names = [s for s in res.signals if s in res.waveforms]
+    big = scales({s: float(max(abs(res.waveforms[s].min()), abs(res.waveforms[s].max()))) for s in names})
+    cel = res.design.celsius
+    rows = []
+    for s in names:
+        w = res.waveforms[s]
+        scale = big.get(signal_unit(s), 0.0)
+        rows.append([_td(s)] + [_td(fmt(s, float(v), cel, scale), "num") for v in (w.min(), w.max(), w[-1])])
+    return (f"<h3>Range of each signal over the transient (to {res.time[-1]:g} s)</h3>\n"
+            + _table(["signal", "min", "max", "final"], rows))
+
+
+def _modules(o: Outcome) -> str:
+    """Each module's figures of merit beside its ideal limits, the air's dew point, every caution."""
+    res = o.results
+    parts = []
+    rows = []
+    for f in res.figures:
+        if f["mode"] == "cooling":
+            merit = f"COP {f['cop']:.3f}" + (f" (ideal best {f['cop_max']:.3f})" if "cop_max" in f else "")
+            what = f"cooling {f['cooling_power']:.4g} W"
+            limits = f"I_max {f['current_max']:.3g} A, ΔT_max {f['dt_max']:.3g} K at this cold side"
+            if "dt_max_rated" in f:
+                limits += f", {f['dt_max_rated']:.3g} K from a {f['rated_hot'] - ZERO_C:.4g} °C hot side"
+        elif f["mode"] == "generating":
+            merit = f"efficiency {100 * f['efficiency']:.2f} % (ideal best {100 * f['efficiency_max']:.2f} %)"
+            what = f"delivers {f['electrical_power']:.4g} W"
+            limits = f"matched load {f['power_matched']:.4g} W"
+        else:
+            merit, what, limits = "—", f"electrical power {f['power']:.4g} W", "—"
+        rows.append([_td(f["module"]), _td(f["mode"]), _td(f"{f['current']:.4g} A", "num"), _td(f"{f['ZT']:.3f}", "num"),
+                     _td(what), _td(merit), _td(limits)])
+    if rows:
+        parts.append(f"<h3>Modules at the {_e(res.figures_at)}</h3>\n"
+                     + _table(["module", "mode", "current", "Z·T", "heat or power", "figure of merit", "ideal limits"],
+                              rows))
+    if res.design.humidity is not None:
+        parts.append(f'<p class="meta">{_e(humidity_line(res.design))}</p>')
+    if res.cautions:
+        parts.append("<h3>Cautions</h3>\n<ul>" + "".join(f'<li class="FAIL">{_e(c)}</li>' for c in res.cautions)
+                     + "</ul>")
+    return "\n".join(parts)
+
+
+def _modes(o: Outcome) -> str:
+    res = o.results
+    if res.modes is None:
+        return ""
+    rows = []
+    tiny = 1e-9 * max((abs(complex(m.real, m.imag)) for m in res.modes), default=0.0)
+    for m in res.modes:
+        conserved = abs(m.real) <= tiny
+        lam = f"{0.0 if conserved else m.real:.5g}" + (f" ± {m.imag:.5g}j" if m.oscillatory else "")
+        decay = ("conserved" if conserved else f"{m.decay_time:.4g} s" if math.isfinite(m.decay_time)
+                 else "grows" if m.real > 0 else "none")
+        rows.append([_td(lam, "num"), _td(decay, "num"), _td(f"{m.frequency:.4g} Hz" if m.oscillatory else "—", "num"),
+                     _td(f"{m.damping:.3f}", "num"), _td(", ".join(f"{n} {100 * s:.0f} %" for n, s in m.nodes))])
+    out = "<h3>Modes of the linearised system</h3>\n" + _table(
+        ["eigenvalue (1/s)", "decay time", "frequency", "damping", "takes part most"], rows)
+    for f in res.forecast:
+        out += (f'<p class="meta">Linear estimate: {_e(f.unknown)} passes its final value at {f.crossing_time:.3g} s '
+                f"and overshoots it by {f.overshoot:.3g} K at {f.overshoot_time:.3g} s.</p>")
+    return out
+
+
+def _windows(o: Outcome) -> str:
+    ws = o.results.windows
+    if not ws:
+        return ""
+    rows = [[_td(w["line"]), _td(f"{w['start']:.6g} s", "num"), _td(f"{w['end']:.6g} s", "num"),
+             _td(f"{w['duration']:.6g} s", "num")] for w in ws]
+    return "<h3>Windows</h3>\n" + _table(["line", "start", "end", "duration"], rows)
+
+
 def _figures(o: Outcome) -> str:
     res = o.results
     title = res.design.title or Path(res.design.file).name
@@ -139,7 +219,8 @@ def _section(i: int, o: Outcome) -> str:
     if o.error is not None:
         parts.append(f"<pre>{_e(o.error)}</pre>")
     else:
-        parts += ["<h3>Checks</h3>", _checks(o), "<h3>Baseline</h3>", _baseline(o), _steady(o), _figures(o)]
+        parts += ["<h3>Checks</h3>", _checks(o), _windows(o), "<h3>Baseline</h3>", _baseline(o), _steady(o),
+                  _ranges(o), _modules(o), _modes(o), _figures(o)]
     parts.append("</section>")
     return "\n".join(p for p in parts if p)
 

@@ -12,7 +12,7 @@ from netgen.model.errors import NetgenError
 from netgen.model.expr import SignalRef, evaluate
 from netgen.outputs.text import ZERO_C
 from netgen.outputs.files import write_atomic
-from netgen.checks.results import Results
+from netgen.checks.results import Results, series
 from netgen.model.signals import kind_of, signal_unit
 
 CURVE = "#1f4e9c"  # this run
@@ -30,8 +30,8 @@ def require() -> None:
         from matplotlib.backends.backend_agg import FigureCanvasAgg  # noqa: F401
     except ImportError:
         raise NetgenError("plots and reports need matplotlib, which is not installed", None,
-                          'install the plot extra: python -m pip install "netgen-etn[plot]" '
-                          "(or python -m pip install matplotlib)") from None
+                          'install the plot extra (from a checkout: python -m pip install -e ".[plot]"), '
+                          "or python -m pip install matplotlib") from None
 
 
 @dataclass
@@ -106,19 +106,19 @@ def series_for(res: Results, base=None) -> list[Series]:
                             res.time, np.asarray(res.waveforms[s], dtype=float), [], bt, bv)
     checks = {id(e): c for e, c in zip(d.expectations, res.checks)}
     for e in d.expectations:
-        if e.agg == "steady":
+        if e.agg == "steady" or e.agg == "window" or e.agg.startswith("time of"):
             continue  # not a point of the transient: shown in the steady-state table
         c = checks.get(id(e))
         key = e.expr.text if isinstance(e.expr, SignalRef) else expression_text(e.text)
         if key not in out:
             try:
-                y = np.broadcast_to(evaluate(e.expr, res.time, signals=res.waveforms), res.time.shape)
+                y = series(e.expr, res.time, res.waveforms)
             except KeyError:
                 continue
             bt = bv = None
             if base is not None and base.time is not None:
                 try:
-                    bv = np.broadcast_to(evaluate(e.expr, base.time, signals=base.signals), base.time.shape)
+                    bv = series(e.expr, base.time, base.signals)
                     bt = base.time
                 except KeyError:
                     pass

@@ -8,6 +8,7 @@ from pathlib import Path
 
 import numpy as np
 
+from netgen.checks.dewpoint import dew_point
 from netgen.checks.results import Results
 from netgen.elements import Thermoelectric
 from netgen.model.design import ELECTRICAL, THERMAL, Design
@@ -61,10 +62,25 @@ def _start_temperatures(d: Design) -> dict[str, float]:
 _unit = signal_unit
 
 
-def fmt(signal: str, v: float, celsius: bool) -> str:
+ROUND_OFF = 1e-9  # a value this small beside the largest of its unit is round-off around zero
+
+
+def scales(values: dict[str, float]) -> dict[str, float]:
+    """The largest size of each unit's values (signal name -> value): what round-off is measured against."""
+    out: dict[str, float] = {}
+    for s, v in values.items():
+        if math.isfinite(v):
+            u = _unit(s)
+            out[u] = max(out.get(u, 0.0), abs(v))
+    return out
+
+
+def fmt(signal: str, v: float, celsius: bool, scale: float = 0.0) -> str:
+    """A value with its unit; one below ROUND_OFF of `scale` (the largest value of its unit in
+    the same table) prints as 0: `-1.1e-14 V` beside 5 V is round-off, not a voltage."""
     if not math.isfinite(v):
         return str(v)
-    if abs(v) < 1e-20:
+    if abs(v) < 1e-20 or (kind_of(signal) != "T" and abs(v) <= ROUND_OFF * scale):
         v = 0.0  # round-off around zero (an open circuit's current) reads as zero
     if celsius and kind_of(signal) == "T":
         return f"{v:.4f} K ({v - ZERO_C:.3f} °C)"
@@ -85,20 +101,25 @@ def print_results(res: Results, out=None) -> None:
     if res.steady is not None:
         print("\nsteady state", file=out)
         width = max(len(s) for s in res.steady) if res.steady else 6
+        big = scales(res.steady)
         for s, v in res.steady.items():
-            print(f"  {s:<{width}}  {fmt(s, v, d.celsius)}", file=out)
+            print(f"  {s:<{width}}  {fmt(s, v, d.celsius, big.get(_unit(s), 0.0))}", file=out)
     if res.time is not None:
         st = res.stats
         print(f"\ntransient to {res.time[-1]:g} s ({st.get('steps', 0)} steps, {st.get('rejected', 0)} rejected)", file=out)
         names = [s for s in res.signals if s in res.waveforms]
         width = max([len(s) for s in names] + [6])
         print(f"  {'signal':<{width}}  {'min':>24}  {'max':>24}  {'final':>24}", file=out)
+        big = scales({s: float(np.max(np.abs(res.waveforms[s]))) for s in names})
         for s in names:
             w = res.waveforms[s]
-            cells = [fmt(s, float(f(w)), d.celsius) for f in (np.min, np.max, lambda a: a[-1])]
+            cells = [fmt(s, float(f(w)), d.celsius, big.get(_unit(s), 0.0)) for f in (np.min, np.max, lambda a: a[-1])]
             print(f"  {s:<{width}}  {cells[0]:>24}  {cells[1]:>24}  {cells[2]:>24}", file=out)
     if res.figures:
         print_figures(res, out)
+    if res.design.humidity is not None:
+        print(f"{'' if res.figures else chr(10)}  {humidity_line(res.design)}", file=out)
+    print_cautions(res, out)
     if res.modes is not None:
         print_modes(res, out)
     for resp in res.responses:
@@ -109,6 +130,16 @@ def print_results(res: Results, out=None) -> None:
             print(f"  {check_text(c)}", file=out)
         failed = sum(not c.passed for c in res.checks)
         print(f"  {len(res.checks) - failed} passed, {failed} failed", file=out)
+    if res.windows:
+        print_windows(res, out)
+
+
+def print_windows(res: Results, out) -> None:
+    """Each window of each `expect window`: its start, end and duration."""
+    print("\nwindows", file=out)
+    for w in res.windows:
+        print(f"  line {w['line']}: from {w['start']:.6g} s to {w['end']:.6g} s, lasting {w['duration']:.6g} s",
+              file=out)
 
 
 def check_text(c) -> str:
@@ -126,14 +157,20 @@ def print_figures(res: Results, out) -> None:
         head = f"  {f['module']}: {f['mode']}, I = {f['current']:.4g} A, Z·T = {f['ZT']:.3f}"
         if f["mode"] == "cooling":
             best = f" (ideal best {f['cop_max']:.3f} at {f['current_best_cop']:.3g} A)" if "cop_max" in f else ""
+            rated = (f", {f['dt_max_rated']:.3g} K from a {f['rated_hot'] - ZERO_C:.4g} °C hot side"
+                     if "dt_max_rated" in f else "")
             print(f"{head}, cooling {f['cooling_power']:.4g} W, COP {f['cop']:.3f}{best}; "
-                  f"ideal limits I_max {f['current_max']:.3g} A, ΔT_max {f['dt_max']:.3g} K", file=out)
+                  f"ideal limits I_max {f['current_max']:.3g} A, ΔT_max {f['dt_max']:.3g} K at this cold side"
+                  f"{rated}", file=out)
         elif f["mode"] == "generating":
             print(f"{head}, delivers {f['electrical_power']:.4g} W at efficiency {100 * f['efficiency']:.2f} % "
                   f"(ideal best {100 * f['efficiency_max']:.2f} %; matched load would give "
                   f"{f['power_matched']:.4g} W)", file=out)
         else:
             print(f"{head}, electrical power {f['power']:.4g} W", file=out)
+
+
+def print_cautions(res: Results, out) -> None:
     for c in res.cautions:
         print(f"  caution: {c}", file=out)
 
@@ -154,8 +191,22 @@ def print_response(resp, out) -> None:
         print(f"  {f[i]:>9.4g} Hz  {f'{mag[i]:.5g} {unit}':>28}  {ph[i]:>8.2f} °", file=out)
 
 
+def humidity_line(d: Design) -> str:
+    """`humidity ...` with the dew point it gives, or ""."""
+    if d.humidity is None:
+        return ""
+    dew = dew_point(d.humidity.relative, d.humidity.air)
+    return (f"air at {d.humidity.air - ZERO_C:.1f} °C and {100 * d.humidity.relative:g} % humidity: "
+            f"dew point {dew - ZERO_C:.1f} °C")
+
+
 def print_modes(res: Results, out) -> None:
-    print(f"\nmodes of the linearised system ({len(res.modes)})", file=out)
+    pairs = sum(m.oscillatory for m in res.modes)
+    count = len(res.modes) + pairs
+    shown = (f"{count} eigenvalue{'s' if count != 1 else ''}"
+             + (f" on {len(res.modes)} line{'s' if len(res.modes) != 1 else ''}: a ringing pair shares one"
+                if pairs else ""))
+    print(f"\nmodes of the linearised system: {shown}", file=out)
     print(f"  {'eigenvalue (1/s)':>28}  {'decay time':>12}  {'frequency':>12}  {'damping':>8}  takes part most", file=out)
     # An eigenvalue this small against the fastest is round-off around zero: a conserved mode.
     tiny = 1e-9 * max((abs(complex(m.real, m.imag)) for m in res.modes), default=0.0)

@@ -43,6 +43,14 @@ class SignalDiff:
     allowed: float
     time: float | None  # None: the steady state
     unit: str
+    range: float = 0.0  # the signal's own range in the baseline (what `rtol` is a share of)
+
+    @property
+    def share(self) -> float:
+        """How much of its own range the signal moved (inf for a signal with no range)."""
+        if not np.isfinite(self.deviation):
+            return float("inf")
+        return abs(self.deviation) / self.range if self.range > 0 else float("inf") if self.deviation else 0.0
 
     @property
     def ratio(self) -> float:
@@ -76,6 +84,13 @@ class Comparison:
     def worst(self) -> SignalDiff | None:
         return max(self.diffs, key=lambda d: d.ratio, default=None)
 
+    @property
+    def beyond(self) -> list[SignalDiff]:
+        """Every signal beyond its tolerance, worst first by the share of its own range it moved
+        (a heat flow that moved 2 % and a temperature that moved 5 % of their ranges: the
+        temperature first, whatever their tolerances)."""
+        return sorted((d for d in self.diffs if not d.passed), key=lambda d: (-d.share, -d.ratio))
+
     def summary(self) -> str:
         """One line: what failed, or how close the worst signal came."""
         w = self.worst
@@ -88,11 +103,21 @@ class Comparison:
             return "nothing to compare"
         size = f"{w.deviation:+.4g} {w.unit}".rstrip()
         if not w.passed:
-            return (f"{w.signal} is off by {size} {w.where} "
-                    f"(allowed ±{w.allowed:.3g} {w.unit}, {w.ratio:.3g} times that)").replace("  ", " ")
+            bad = self.beyond
+            each = "; ".join(_moved(d) for d in bad)
+            if len(bad) == 1:
+                return each
+            return f"{len(bad)} signals beyond their tolerance, the largest share of its range first: {each}"
         if w.ratio < 1e-3:
             return "every signal within 0.1 % of its tolerance"
         return f"closest is {w.signal}, at {100 * w.ratio:.2g} % of its tolerance {w.where}"
+
+
+def _moved(d: SignalDiff) -> str:
+    size = f"{d.deviation:+.4g} {d.unit}".rstrip()
+    share = (f"{100 * d.share:.3g} % of its range, " if np.isfinite(d.share) and d.range > 0 else "")
+    return (f"{d.signal} is off by {size} {d.where} ({share}allowed ±{d.allowed:.3g} {d.unit}, "
+            f"{d.ratio:.3g} times that)").replace("  ", " ")
 
 
 def _spread(values) -> float:
@@ -178,9 +203,10 @@ def compare(base, time: np.ndarray | None, waves: dict, steady: dict | None, sig
             dev = resample(grid, time, np.asarray(waves[s], dtype=float)) - bwave
             bad = ~np.isfinite(dev)
             k = int(np.argmax(bad)) if bad.any() else int(np.argmax(np.abs(dev)))
-            cands.append(SignalDiff(s, float(dev[k]), allowed, float(grid[k]), unit_of(s)))
+            cands.append(SignalDiff(s, float(dev[k]), allowed, float(grid[k]), unit_of(s), scale.get(s, 0.0)))
         if bsteady is not None and steady is not None and s in steady:
-            cands.append(SignalDiff(s, float(steady[s]) - float(bsteady), allowed, None, unit_of(s)))
+            cands.append(SignalDiff(s, float(steady[s]) - float(bsteady), allowed, None, unit_of(s),
+                                    scale.get(s, 0.0)))
         if cands:
             out.diffs.append(max(cands, key=lambda c: c.ratio))
     return out

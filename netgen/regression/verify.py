@@ -30,6 +30,7 @@ class Outcome:
     comparison: Comparison | None = None
     update: str | None = None  # with --update-baseline: new, unchanged, moved within tolerance, changed
     elapsed: float = 0.0
+    baseline_seconds: float = 0.0  # of `elapsed`, the baseline comparison (or update)
 
     @property
     def checks(self) -> list[Check]:
@@ -144,7 +145,9 @@ def verify_file(path: Path, settings: dict[str, str], directory: Path | None = N
     start = time.monotonic()
     try:
         o.results = run(load(path, settings))
+        solved = time.monotonic()
         attach_baseline(o, directory, rtol, per_signal, update)
+        o.baseline_seconds = time.monotonic() - solved
     except NetgenError as e:
         o.error = e.render()
     o.elapsed = time.monotonic() - start

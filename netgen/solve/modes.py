@@ -57,16 +57,14 @@ def modes(sys: System, x: np.ndarray, t: float = 0.0) -> list[Mode]:
     scale = max(1.0, float(np.max(np.abs(J))) / max(float(np.max(np.abs(C))), 1e-300))
     finite = np.isfinite(w) & (np.abs(w) < 1e10 * scale)
     out = []
-    seen_conj = set()
     state_rows = ~sys.algebraic_rows
     for k in np.flatnonzero(finite):
         lam = w[k]
-        if lam.imag < 0:
+        # One entry per conjugate pair (the member with positive imaginary part); a real
+        # eigenvalue, even with round-off in its imaginary part, and a repeated one (two equal
+        # masses on equal links) each stay: every eigenvalue is one row or half of a pair's row.
+        if lam.imag < 0 and abs(lam.imag) > 1e-12 * max(1.0, abs(lam.real)):
             continue
-        key = (round(lam.real, 12), round(abs(lam.imag), 12))
-        if key in seen_conj:
-            continue
-        seen_conj.add(key)
         vec = np.abs(v[:, k])
         # Shares over the nodes: temperatures, and voltages of nodes with capacitance.
         kinds = np.array(sys.kinds)
@@ -74,7 +72,8 @@ def modes(sys: System, x: np.ndarray, t: float = 0.0) -> list[Mode]:
         total = vec.sum() or 1.0
         order = np.argsort(-vec)
         nodes = [(sys.names[i], float(vec[i] / total)) for i in order[:4] if vec[i] / total > 0.05]
-        out.append(Mode(float(lam.real), float(abs(lam.imag)), nodes))
+        imag = float(lam.imag) if lam.imag > 1e-12 * max(1.0, abs(lam.real)) else 0.0
+        out.append(Mode(float(lam.real), imag, nodes))
     out.sort(key=lambda m: (abs(m.real), m.imag))
     return out
 
