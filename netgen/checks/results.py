@@ -42,6 +42,7 @@ class Results:
     figures: list[dict] = field(default_factory=list)  # per module, see merit.figures
     figures_at: str = ""
     cautions: list[str] = field(default_factory=list)
+    events: list[dict] = field(default_factory=list)  # {"element", "what", "time"}: switches acting on conditions
 
     def __getitem__(self, signal: str) -> np.ndarray:
         return self.waveforms[signal]

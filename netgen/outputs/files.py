@@ -193,6 +193,8 @@ def summary(res: Results) -> dict:
         out["modules"] = res.figures
     if res.cautions:
         out["cautions"] = res.cautions
+    if res.events:
+        out["events"] = [{"element": e["element"], "what": e["what"], "time": float(e["time"])} for e in res.events]
     if res.checks:
         out["expectations"] = [
             {"text": c.text, "measured": c.measured, "limit": c.limit, "unit": c.unit, "passed": c.passed}

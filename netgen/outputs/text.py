@@ -97,8 +97,14 @@ def print_results(res: Results, out=None) -> None:
             w = res.waveforms[s]
             cells = [fmt(s, float(f(w)), d.celsius) for f in (np.min, np.max, lambda a: a[-1])]
             print(f"  {s:<{width}}  {cells[0]:>24}  {cells[1]:>24}  {cells[2]:>24}", file=out)
+        for ev in res.events:
+            print(f"  event: switch `{ev['element']}` {ev['what']} at t = {ev['time']:.9g} s", file=out)
     if res.figures:
         print_figures(res, out)
+    elif res.cautions:
+        print("", file=out)
+        for c in res.cautions:
+            print(f"  caution: {c}", file=out)
     if res.modes is not None:
         print_modes(res, out)
     if res.checks:
