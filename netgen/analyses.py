@@ -13,11 +13,13 @@ import numpy as np
 
 from netgen.checks.audits import energy_audit, entropy_audit, needed_signals
 from netgen.checks.merit import cautions, figures
+from netgen.checks.switching import opening_cautions
 from netgen.checks.results import Check, Results, evaluate_expectation, refs
 from netgen.elements import Thermoelectric
 from netgen.model.design import Design, Modes, Response
 from netgen.model.errors import NetgenError
 from netgen.solve.assembly import System, assemble
+from netgen.solve.events import Watch, timeline
 from netgen.solve.modes import forecast, modes
 from netgen.solve.response import response
 from netgen.solve.signals import SignalEval, signal_texts
@@ -78,8 +80,12 @@ class TransientAnalysis:
     def solve(self, r: Run) -> None:
         tr, sys, sig, res = r.design.transient, r.sys, r.sig, r.res
         try:
-            x0 = solve_dc(sys, 0.0, impose=True)
-            wf = integrate(sys, x0, tr.until, tr.step, tr.tolerance, r.progress)
+            watch = Watch(sys, sig)
+            x0, dyn, events = self._start(sys, watch)
+            wf = integrate(sys, x0, tr.until, tr.step, tr.tolerance, r.progress, watch, dyn, events)
+            if watch:
+                sys.timeline = timeline(sys, watch.initial(), wf.events)
+                res.events = wf.events
         except NetgenError as e:
             e.loc = e.loc or tr.loc
             part = getattr(e, "partial", None)
@@ -97,6 +103,24 @@ class TransientAnalysis:
         res.waveforms = {s: sig(s, wf.x, wf.xdot, wf.time, wf.left_rows) for s in dict.fromkeys(r.wanted + extra)}
         res.initial = {name: float(v) for name, v in zip(sys.names, x0)}
         res.stats = {"steps": wf.steps, "rejected": wf.rejected, "factorizations": wf.factorizations}
+
+    @staticmethod
+    def _start(sys: System, watch):
+        """The transient's start, with the start values held; a switch that acts on a condition
+        which already holds there changes at once (an event at 0 s) and the start is solved again."""
+        dyn = watch.initial() if watch else {}
+        x0 = solve_dc(sys, 0.0, impose=True, dyn=dyn)
+        events = []
+        if watch:
+            flips = [k for k, g in watch.margins(dyn, x0, np.zeros_like(x0), 0.0).items() if g > 0]
+            for k in flips:
+                dyn[k] = not dyn[k]
+                events.append({"element": sys.switches[k].name, "what": "closes" if dyn[k] else "opens", "time": 0.0})
+            if flips:
+                x0 = solve_dc(sys, 0.0, impose=True, dyn=dyn)
+                for k in flips:
+                    watch.check_gap(k, dyn[k], x0, np.zeros_like(x0), 0.0)
+        return x0, dyn, events
 
 
 class ModesAnalysis:
@@ -179,6 +203,9 @@ def _run(d: Design, progress=None) -> Results:
         res.figures_at = "steady state" if where == "steady" else "end of the transient"
     if any(isinstance(e, Thermoelectric) for e in d.elements) or d.humidity is not None:
         res.cautions = cautions(d, lambda text: np.concatenate([np.atleast_1d(r.signal(a, text)) for a in r.states]))
+    if "transient" in r.states and sys.switches:
+        X, _, t, left_rows = r.states["transient"]
+        res.cautions += opening_cautions(d, sys, X, t, left_rows, res.events)
     res.checks += [_audit(d, a, r.states.get("transient"), r.sig) for a in d.audits]
     return res
 

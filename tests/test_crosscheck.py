@@ -344,7 +344,7 @@ def test_wrong_netlist_exits_1_naming_the_signal(ngspice, monkeypatch, capsys):
     import netgen.spice.crosscheck as cmp
 
     real = cmp.netlist
-    monkeypatch.setattr(cmp, "netlist", lambda d: (_flip_peltier(real(d)[0]), real(d)[1]))
+    monkeypatch.setattr(cmp, "netlist", lambda d, *more: (_flip_peltier(real(d, *more)[0]), real(d, *more)[1]))
     assert main(["crosscheck", str(COOLER)]) == 1
     out = capsys.readouterr().out
     assert "MISMATCH in T(die)" in out

@@ -91,7 +91,7 @@ def parse(text: str):
 
 
 # ---- synopses ----------------------------------------------------------------------------------
-PLACEHOLDERS = {"AGG": "max", "CMP": "<", "SIGNAL": "T(x)", "COMPARISON": "x < x", "EXTREME": "min"}
+PLACEHOLDERS = {"AGG": "max", "CMP": "<", "SIGNAL": "T(x)", "COMPARISON": "x < x", "EXTREME": "min", "CONDITION": "T(x) < x"}
 
 
 def _line_variants(line: str) -> list[str]:

@@ -45,6 +45,7 @@ class Results:
     cautions: list[str] = field(default_factory=list)
     responses: list = field(default_factory=list)  # solve.response.Response, in the file's order
     windows: list[dict] = field(default_factory=list)  # {"line", "start", "end", "duration"} per window
+    events: list[dict] = field(default_factory=list)  # {"element", "what", "time"}: switches acting on conditions
 
     def __getitem__(self, signal: str) -> np.ndarray:
         return self.waveforms[signal]

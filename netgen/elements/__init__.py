@@ -10,6 +10,7 @@ from netgen.elements.base import THERMAL_REF, EnergyTerm, Kind, TwoTerminal
 from netgen.elements.capacitor import Capacitor
 from netgen.elements.controller import Controller
 from netgen.elements.convection import Convection
+from netgen.elements.diode import Diode
 from netgen.elements.fixed import Fixed
 from netgen.elements.heat import Heat
 from netgen.elements.inductor import Inductor
@@ -23,7 +24,7 @@ from netgen.elements.thermoelectric import Thermoelectric
 # In the order their branch unknowns and stamps are laid out.
 KINDS: tuple[type[Kind], ...] = (
     Link, Heat, Fixed, Resistor, Capacitor, Inductor, VoltageSource, CurrentSource, Switch, Thermoelectric,
-    Radiation, Convection, Controller,
+    Radiation, Convection, Controller, Diode,
 )
 
 # Statement keyword → the function that reads it (kinds sharing a statement share its reader).

@@ -224,6 +224,7 @@ class Stamp:
     corners_of: list[Wave] = field(default_factory=list)
     blocks: list[Equations] = field(default_factory=list)
     switches: list = field(default_factory=list)
+    limits: list = field(default_factory=list)  # Newton's limiters of a kind's own unknowns (`apply(x_old, x_new)`)
     start_nodes: list[tuple[int, int, float]] = field(default_factory=list)
     start_branches: list[tuple[int, float]] = field(default_factory=list)
 
@@ -270,6 +271,7 @@ class Probe:
     node_index: dict[str, int]
     branch_index: dict[str, int]
     n: int
+    timeline: dict = field(default_factory=dict)  # switch name → closed(t, left), of switches that act on conditions
 
     def node(self, name: str) -> np.ndarray:
         i = self.node_index[name]

@@ -199,6 +199,8 @@ def summary(res: Results) -> dict:
         out["cautions"] = res.cautions
     if d.humidity is not None:
         out["dew_point"] = dew_point(d.humidity.relative, d.humidity.air)
+    if res.events:
+        out["events"] = [{"element": e["element"], "what": e["what"], "time": float(e["time"])} for e in res.events]
     if res.checks:
         out["expectations"] = [
             {"text": c.text, "measured": c.measured, "limit": c.limit, "unit": c.unit, "passed": c.passed}

@@ -19,16 +19,16 @@ from pygments.token import Comment, Keyword, Name, Number, Operator, Punctuation
 # The statements (a line's first word), the attributes (after the positional parts), the words
 # that join the parts of a statement, the aggregates after `expect` and the kinds after `audit`.
 STATEMENTS = ("design", "let", "mass", "fixed", "link", "heat", "ground", "radiation", "convection",
-              "resistor", "capacitor", "inductor", "source", "switch", "thermoelectric", "controller", "material",
+              "resistor", "capacitor", "inductor", "source", "switch", "thermoelectric", "controller", "diode", "material",
               "part", "use", "include", "plate", "steady", "transient", "modes", "response", "record", "expect",
               "audit", "baseline", "humidity")
 ATTRIBUTES = ("start", "heats", "tempco", "closed", "on", "off", "pins", "sides", "seebeck", "resistance",
               "conductance", "couples", "rated", "resistivity", "conductivity", "hottest", "step",
               "tolerance", "emissivity", "area", "view", "coefficient", "exponent", "cell", "thickness",
               "density", "specific", "capacity", "proportional", "integral", "derivative", "output", "tracking",
-              "filter")
+              "filter", "saturation", "emission", "series", "at", "opens", "closes")
 CLAUSES = ("until", "within", "between", "and", "at", "ref", "material", "leg", "imax", "vmax", "dtmax",
-           "by", "with", "to", "from", "points", "window", "lasts", "of")
+           "by", "with", "to", "from", "points", "window", "lasts", "of", "when")
 AGGREGATES = ("max", "min", "final", "mean", "steady")
 AUDITS = ("energy", "entropy")
 FUNCTIONS = ("sqrt", "abs", "min", "max", "exp", "log", "sin", "cos", "step", "ramp", "pulse", "sine", "table")
@@ -77,7 +77,7 @@ class EtnLexer(RegexLexer):
             (rf"({NUMERAL})(?:([ \t]*)({UNIT}))?", bygroups(Number, _W, Keyword.Type)),
             (_words(RESERVED), Name.Builtin.Pseudo),
             (rf"(specific)([ \t]+)(heat){END}", bygroups(Name.Attribute, _W, Name.Attribute)),
-            (_words(ATTRIBUTES), Name.Attribute),
+            (_words(tuple(w for w in ATTRIBUTES if w not in CLAUSES)), Name.Attribute),  # `at` stays a clause word
             (_words(CLAUSES), Keyword.Pseudo),
             (NAME, Name),
             (r"\.\.|<=|>=|[<>=+\-*/^]", Operator),

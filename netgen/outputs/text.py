@@ -115,6 +115,8 @@ def print_results(res: Results, out=None) -> None:
             w = res.waveforms[s]
             cells = [fmt(s, float(f(w)), d.celsius, big.get(_unit(s), 0.0)) for f in (np.min, np.max, lambda a: a[-1])]
             print(f"  {s:<{width}}  {cells[0]:>24}  {cells[1]:>24}  {cells[2]:>24}", file=out)
+        for ev in res.events:
+            print(f"  event: switch `{ev['element']}` {ev['what']} at t = {ev['time']:.9g} s", file=out)
     if res.figures:
         print_figures(res, out)
     if res.design.humidity is not None:

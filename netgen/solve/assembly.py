@@ -71,6 +71,8 @@ class System:
     start_nodes: list[tuple[int, int, float]] = field(default_factory=list)
     start_branches: list[tuple[int, float]] = field(default_factory=list)
     corners_of: list = field(default_factory=list)
+    limits: list = field(default_factory=list)  # the kinds' limiters of Newton's updates (diode junctions)
+    timeline: dict = field(default_factory=dict)  # switch name → closed(t, left), from a run's events
 
     def __post_init__(self):
         n = self.n
@@ -110,8 +112,12 @@ class System:
     def linear(self) -> bool:
         return not self.blocks
 
-    def switch_state(self, t: float) -> tuple[bool, ...]:
-        return tuple(s.closed_at(t) for s in self.switches)
+    def switch_state(self, t: float, dyn: dict | None = None) -> tuple[bool, ...]:
+        """Each switch's state at t; `dyn` holds the states of switches that act on conditions
+        (their index → closed), which the transient keeps as their events come."""
+        if not dyn:
+            return tuple(s.closed_at(t) for s in self.switches)
+        return tuple(dyn[k] if k in dyn else s.closed_at(t) for k, s in enumerate(self.switches))
 
     def _g_data(self, state) -> np.ndarray:
         """Data of G(state) in the common pattern."""
@@ -187,6 +193,15 @@ class System:
             return sp.csc_matrix((self.n, self.n))
         return self._pat.matrix(self._jf_data(x))
 
+    def limit(self, x_old: np.ndarray, x_new: np.ndarray) -> tuple[np.ndarray, bool]:
+        """Newton's new iterate with the kinds' limits applied (junction voltages, Nagel 1975),
+        and whether any applied; a limited iterate is no converged one."""
+        hit = False
+        for lim in self.limits:
+            x_new, h = lim.apply(x_old, x_new)
+            hit |= h
+        return x_new, hit
+
     # ---- whole residual ------------------------------------------------------------------
     def F(self, x, t, state, left=False):
         return self.G(state) @ x + self.f(x) - self.b(t, left)
@@ -224,7 +239,7 @@ def assemble(d: Design) -> System:
         if e.branch is not None:
             branch_index[e.name] = len(names)
             names.append(f"{e.branch}({e.name})")
-            kinds.append(AMP if e.branch == "I" else WATT)
+            kinds.append({"I": AMP, "Q": WATT, "V": VOLT}[e.branch])
         for label, kind in e.unknowns():
             branch_index[label] = len(names)
             names.append(label)
@@ -259,7 +274,7 @@ def assemble(d: Design) -> System:
         switches=[x[0] for x in sw],
         sw_rows=sw_r[keep], sw_cols=sw_c[keep], sw_sign=sw_s[keep], sw_which=sw_w[keep],
         blocks=st.blocks, start_nodes=st.start_nodes, start_branches=st.start_branches,
-        corners_of=st.corners_of,
+        corners_of=st.corners_of, limits=st.limits,
     )
 
 

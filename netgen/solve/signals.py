@@ -35,7 +35,9 @@ class SignalEval:
         """`left` (one flag or one per sample) takes the limit from before at source corners."""
         s = as_signal(signal)
         sys = self.sys
-        p = Probe(X, Xdot, t, left, sys.node_index, sys.branch_index, sys.n)
+        p = Probe(X, Xdot, t, left, sys.node_index, sys.branch_index, sys.n, sys.timeline)
+        if s.kind == "V" and len(s.args) == 1 and s.args[0] in sys.branch_index:
+            return p.branch(s.args[0])  # an element's own voltage unknown (a diode's junction)
         if s.kind in ("T", "V"):
             v = p.node(s.args[0])
             return v - p.node(s.args[1]) if len(s.args) == 2 else v

@@ -27,10 +27,12 @@ def _weights(sys: System, x: np.ndarray) -> np.ndarray:
     return 1e-9 + 1e-9 * np.abs(x)
 
 
-def newton(residual, jacobian, x0, weights, max_iter=MAX_ITER, constant_jacobian=False):
+def newton(residual, jacobian, x0, weights, max_iter=MAX_ITER, constant_jacobian=False, limit=None):
     """Damped Newton on residual(x) = 0. Returns (x, converged, worst_index).
 
     With `constant_jacobian` (a linear problem) the Jacobian is factorised once and reused.
+    `limit(x, x_new)` -> (x_new, limited) is the kinds' limiting of their own unknowns (diode
+    junctions); a limited update is taken whole, as circuit simulators do, and is never the last.
     """
     x = x0.copy()
     r = residual(x)
@@ -50,6 +52,13 @@ def newton(residual, jacobian, x0, weights, max_iter=MAX_ITER, constant_jacobian
         big = np.max(np.abs(dx)) if len(dx) else 0.0
         if big > 100.0 and not constant_jacobian:
             lam = 100.0 / big
+        if limit is not None:
+            xl, hit = limit(x, x + lam * dx)
+            rl = residual(xl) if hit else None
+            if hit and np.all(np.isfinite(rl)):
+                x, r, norm = xl, rl, np.linalg.norm(rl)
+                worst = int(np.argmax(np.abs(r)))
+                continue
         while True:
             xn = x + lam * dx
             rn = residual(xn)
@@ -75,9 +84,11 @@ class DCProblem:
     constraint with a multiplier of its own, bordering the system.
     """
 
-    def __init__(self, sys: System, t: float = 0.0, impose: bool = False, gmin: float = 0.0, pin: bool = True):
+    def __init__(self, sys: System, t: float = 0.0, impose: bool = False, gmin: float = 0.0, pin: bool = True,
+                 dyn: dict | None = None):
         self.sys, self.t = sys, t
-        self.state = sys.switch_state(t)
+        self.state = sys.switch_state(t, dyn)
+        self.dyn = dyn
         n = sys.n
         pins: dict[int, float] = {}
         border: list[tuple[int, int, float]] = []
@@ -133,6 +144,15 @@ class DCProblem:
     def start(self, x0: np.ndarray) -> np.ndarray:
         return np.concatenate([x0[self.free], np.zeros(self.m)])
 
+    def limit(self, z_old, z_new):
+        """The kinds' limits (diode junctions) on a new iterate of the problem's own unknowns."""
+        x_new, hit = self.sys.limit(self.full(z_old), self.full(z_new))
+        if not hit:
+            return z_new, False
+        out = z_new.copy()
+        out[: len(self.free)] = x_new[self.free]
+        return out, True
+
     def residual(self, z):
         sys, nf = self.sys, len(self.free)
         x = self.full(z)
@@ -169,21 +189,21 @@ def check_physical(sys: System, x: np.ndarray, when: str) -> None:
             "module currents, and the links to a reservoir")
 
 
-def solve_dc(sys: System, t: float = 0.0, impose: bool = False, pin: bool = True) -> np.ndarray:
+def solve_dc(sys: System, t: float = 0.0, impose: bool = False, pin: bool = True, dyn: dict | None = None) -> np.ndarray:
     """The steady state at time t (with `impose`, every start value held). Raises SolveError.
 
     `pin=False` imposes every start value as a bordering constraint instead of pinning
     unknowns: the general form, slower on large meshes, kept to check the pinned one against.
     """
-    x = _solve_dc(sys, t, impose, pin)
+    x = _solve_dc(sys, t, impose, pin, dyn)
     check_physical(sys, x, "the start of the transient" if impose else "the steady state")
     return x
 
 
-def _solve_dc(sys: System, t: float, impose: bool, pin: bool) -> np.ndarray:
+def _solve_dc(sys: System, t: float, impose: bool, pin: bool, dyn: dict | None = None) -> np.ndarray:
     if sys.n == 0:
         return np.zeros(0)
-    prob = DCProblem(sys, t, impose, pin=pin)
+    prob = DCProblem(sys, t, impose, pin=pin, dyn=dyn)
     x_guess = _guess(sys, t)
     z0 = prob.start(x_guess)
     nf = len(prob.free)
@@ -191,7 +211,8 @@ def _solve_dc(sys: System, t: float, impose: bool, pin: bool) -> np.ndarray:
         return prob.full(z0)
     w = lambda z: np.concatenate([_weights(sys, z[:nf]), 1e-9 + 1e-9 * np.abs(z[nf:])])
     linear = sys.linear
-    z, ok, worst = newton(prob.residual, prob.jacobian, z0, w, constant_jacobian=linear)
+    lim = (lambda p: p.limit) if sys.limits else (lambda p: None)
+    z, ok, worst = newton(prob.residual, prob.jacobian, z0, w, constant_jacobian=linear, limit=lim(prob))
     if ok:
         return prob.full(z)
     # Source stepping: scale every source from a tenth up, following the solution.
@@ -199,7 +220,7 @@ def _solve_dc(sys: System, t: float, impose: bool, pin: bool) -> np.ndarray:
     ok = True
     for s in np.linspace(0.1, 1.0, 10):
         prob.scale = s
-        z, ok, worst = newton(prob.residual, prob.jacobian, z, w, constant_jacobian=linear)
+        z, ok, worst = newton(prob.residual, prob.jacobian, z, w, constant_jacobian=linear, limit=lim(prob))
         if not ok:
             break
     prob.scale = 1.0
@@ -209,8 +230,8 @@ def _solve_dc(sys: System, t: float, impose: bool, pin: bool) -> np.ndarray:
     z = z0.copy()
     p = prob
     for gmin in [1e-2, 1e-3, 1e-4, 1e-6, 1e-8, 1e-10, 0.0]:
-        p = DCProblem(sys, t, impose, gmin, pin)
-        z, ok, worst = newton(p.residual, p.jacobian, z, w, constant_jacobian=linear)
+        p = DCProblem(sys, t, impose, gmin, pin, dyn)
+        z, ok, worst = newton(p.residual, p.jacobian, z, w, constant_jacobian=linear, limit=lim(p))
         if not ok:
             break
     if ok:

@@ -32,6 +32,11 @@ KEEP_FACTORS = 4  # factorisations kept for reuse, the most recent ones ...
 KEEP_NONZEROS = 6_000_000  # ... while together they hold no more entries than this (~70 MB)
 SLOW = 0.5  # Newton contracting slower than this per iteration asks for a fresh Jacobian
 NEWTON_TOL = 1e-3  # Newton's error, in units of the step's error weights
+# An update that no longer shrinks under a fresh Jacobian is rounding noise (a floating part of a
+# network held by an open switch's 1 nS moves by 1e-7 V per update whatever Newton does); it is
+# taken as converged when it is this small against the error weights, which the step's own error
+# control allows in full.
+STALLED = 0.1
 # Steps (accepted and rejected) one run may take: five times the points a transient may report
 # (language/elaborate.py MAX_POINTS), so a run that must creep stops with a message, not memory.
 MAX_STEPS = 5_000_000
@@ -98,6 +103,7 @@ class Waveforms:
     message: str = ""
     solves: int = 0  # back-substitutions
     newton: int = 0  # Newton iterations (nonlinear networks)
+    events: list = None  # {"element", "what", "time"} of the switches that act on conditions
 
 
 class _Factors:
@@ -136,8 +142,14 @@ class _Factors:
         return lu.solve(rhs)
 
 
-def _stage(sys, fac, h, state, rhs, t, x_guess, left, weights, stats):
-    """Solve C·y + d·h·F(y, t) = rhs for y. Returns (y, ok)."""
+def _stage(sys, fac, h, state, rhs, t, x_guess, left, weights, stats, floor=None):
+    """Solve C·y + d·h·F(y, t) = rhs for y. Returns (y, ok).
+
+    `weights` are the step's error weights from its start; with `floor` = (atol, rtol, offset)
+    they grow with the iterate too (atol + rtol·max(|x|, |y|), as circuit simulators weigh
+    Newton's updates): an update is judged against the size of the value it updates, so a
+    voltage that leaps from millivolts to megavolts (a coil's current forced through an open
+    switch) converges instead of asking for nanovolts of a 10⁷ V value, below rounding."""
     if sys.linear:
         lu = fac.get(h, state)
         if lu is None:
@@ -161,14 +173,24 @@ def _stage(sys, fac, h, state, rhs, t, x_guess, left, weights, stats):
         stats["newton"] += 1
         if not np.all(np.isfinite(dy)):
             return y, False
-        y = y + dy
-        size = float(np.max(np.abs(dy) / weights)) if len(dy) else 0.0
+        y_next = y + dy
+        if sys.limits:  # the kinds' limits of their own unknowns (diode junctions, Nagel 1975)
+            y_next, hit = sys.limit(y, y_next)
+            if hit:  # a fresh Jacobian where the junction now is
+                y, prev, rate = y_next, None, None
+                lu = fac.get(h, state, y, fresh=True)
+                continue
+        y = y_next
+        w = weights if floor is None else np.maximum(weights, floor[0] + floor[1] * np.abs(y - floor[2]))
+        size = float(np.max(np.abs(dy) / w)) if len(dy) else 0.0
         if prev is not None:
             rate = size / prev if prev > 0 else 0.0
         # Converged when this update is small, or when the contraction rate says that what is
         # left after it, rate/(1 − rate)·|update|, is (Hairer & Wanner, Solving ODEs II, IV.8):
         # a weakly nonlinear network is then done after a single iteration.
         if size < NEWTON_TOL or (rate is not None and rate < 0.5 and rate / (1 - rate) * size < NEWTON_TOL):
+            return y, True
+        if fresh and rate is not None and rate > 0.9 and size < STALLED:
             return y, True
         # Modified Newton contracts linearly; when it does so slowly (or not at all), a fresh
         # Jacobian at the current iterate restores Newton's pace. Once per stage is enough.
@@ -180,6 +202,18 @@ def _stage(sys, fac, h, state, rhs, t, x_guess, left, weights, stats):
             continue
         prev = size
     return y, False
+
+
+def _consistent(sys, fac, state, x, t, t_end, weights, stats, floor, stored):
+    """The state just after a corner at t: a backward-Euler step of negligible length eps from x.
+    Returns (x_plus, ok, eps). The stored quantities (a coil's current, a mass's temperature) may
+    not move in it; when one does (a coil forced through an open switch decays in L/R_off, often
+    nanoseconds), the step is taken again a thousand times shorter."""
+    for eps in (t_end * 1e-10, t_end * 1e-13):
+        x_plus, ok = _stage(sys, fac, eps / D, state, sys.C @ x, t, x, False, weights, stats, floor)
+        if ok and not np.any((np.abs(x_plus - x) > weights)[stored]):
+            break
+    return x_plus, ok, eps
 
 
 def _usable_corners(corners: list[float], t_end: float) -> list[float]:
@@ -195,8 +229,15 @@ def _usable_corners(corners: list[float], t_end: float) -> list[float]:
 
 
 def integrate(sys: System, x0: np.ndarray, t_end: float, max_step: float | None = None,
-              tolerance: float | None = None, progress=None) -> Waveforms:
-    """Integrate C·x' + F(x, t) = 0 from x0 at t = 0 to t_end."""
+              tolerance: float | None = None, progress=None, watch=None, dyn=None, events=None) -> Waveforms:
+    """Integrate C·x' + F(x, t) = 0 from x0 at t = 0 to t_end.
+
+    `watch` (solve/events.py) holds the switches that act on conditions, `dyn` their states at
+    the start (switch index → closed) and `events` those already taken at the start; each later
+    event is located on the step where its condition becomes true, the step is taken again to
+    land on it, and the run restarts there from a consistent state with the switch changed."""
+    dyn = dict(dyn or {})
+    events = list(events or [])
     n = sys.n
     rtol = RTOL if tolerance is None else tolerance
     scale = rtol / RTOL
@@ -212,6 +253,7 @@ def integrate(sys: System, x0: np.ndarray, t_end: float, max_step: float | None 
     # Derivatives are kept only where a signal reads them: node voltages and branch currents.
     keep_d = np.flatnonzero((kinds == "V") | (kinds == "I"))
     C = sys.C
+    stored = np.diff(C.tocsc().indptr) > 0  # unknowns that hold a stored quantity (continuous in time)
     fac = _Factors(sys)
     stats = {"newton": 0}
 
@@ -221,13 +263,14 @@ def integrate(sys: System, x0: np.ndarray, t_end: float, max_step: float | None 
     xs.append(x0)
     xds.append(np.zeros(len(keep_d)))
     t, x = 0.0, x0.copy()
-    state = sys.switch_state(0.0)
+    state = sys.switch_state(0.0, dyn)
     z = -sys.F(x, t, state)  # C·x' at the start (right-hand limit of every source)
     z[alg] = 0.0
     h = min(hmax, t_end * 1e-4, corners[0])
     h_min = t_end * 1e-14
     steps = rejected = 0
     ci = 0
+    pending = None  # (time, switch index) of a located event the next steps land on
     while t < t_end * (1 - 1e-12):
         if steps + rejected >= MAX_STEPS:
             return _partial(times, xs, xds, keep_d, steps, rejected, fac, t,
@@ -238,21 +281,30 @@ def integrate(sys: System, x0: np.ndarray, t_end: float, max_step: float | None 
         while ci < len(corners) and corners[ci] <= t * (1 + 1e-13) + 1e-300:
             ci += 1
         next_corner = corners[ci] if ci < len(corners) else t_end
+        if pending is not None and pending[0] - t <= t_end * 1e-13:
+            # An event this close to the last point is at that point: change the switch there.
+            x, z = _fire(sys, fac, watch, dyn, events, pending[1], t, x, t_end, atol, rtol, offset, stats, stored,
+                         times, xs, xds, left_rows, keep_d)
+            pending = None
+            continue
+        if pending is not None:
+            next_corner = min(next_corner, pending[0])
         h = min(h, hmax)
         lands = t + h >= next_corner * (1 - 1e-9)
         if lands:
             h = next_corner - t
-        mid_state = sys.switch_state(t + 0.5 * h)
+        mid_state = sys.switch_state(t + 0.5 * h, dyn)
         weights = atol + rtol * np.abs(x - offset)
+        floor = (atol, rtol, offset)
         # Stage 1, trapezoidal to t + γh.
         hg = GAMMA * h
         rhs1 = C @ x + D * h * z  # (γh/2)·z = d·h·z
-        y1, ok = _stage(sys, fac, h, mid_state, rhs1, t + hg, x, False, weights, stats)
+        y1, ok = _stage(sys, fac, h, mid_state, rhs1, t + hg, x, False, weights, stats, floor)
         if ok:
             # Stage 2, BDF2 to t + h.
             rhs2 = C @ (A2 * y1 - B2 * x)
             t_new = t + h
-            x_new, ok = _stage(sys, fac, h, mid_state, rhs2, t_new, 2 * y1 - x, lands, weights, stats)
+            x_new, ok = _stage(sys, fac, h, mid_state, rhs2, t_new, 2 * y1 - x, lands, weights, stats, floor)
         if not ok:
             rejected += 1
             h *= 0.25
@@ -276,6 +328,16 @@ def integrate(sys: System, x0: np.ndarray, t_end: float, max_step: float | None 
                 return _partial(times, xs, xds, keep_d, steps, rejected, fac, t,
                                 "the step size collapsed (error control)", sys, x, est / w)
             continue
+        if watch and not (pending is not None and lands and next_corner == pending[0]):
+            found = watch.locate(dyn, t, h, x, y1, x_new, GAMMA)
+            if found is not None and found[0] < t_new * (1 - 1e-14):
+                pending = found  # take the step again, to land on the event
+                h = found[0] - t
+                continue
+            if found is not None:
+                pending = (t_new, found[1])
+                lands = True
+                next_corner = t_new
         if np.any(x_new[is_temp] <= 0):
             return _partial(times, xs, xds, keep_d, steps, rejected, fac, t,
                             "a temperature would fall to absolute zero", sys, x,
@@ -293,13 +355,17 @@ def integrate(sys: System, x0: np.ndarray, t_end: float, max_step: float | None 
         factor = 0.9 * err ** (-1.0 / 3.0) if err > 0 else 5.0
         # Small increases are not worth a new factorisation: keep h unless it can grow by half.
         h_next = h if 1.0 <= factor < 1.5 else h * min(5.0, max(0.2, factor))
+        fire = pending is not None and lands and next_corner == pending[0]
+        if fire:
+            dyn[pending[1]] = not dyn[pending[1]]
+            sw = sys.switches[pending[1]]
+            events.append({"element": sw.name, "what": "closes" if dyn[pending[1]] else "opens", "time": t})
         if lands and t < t_end * (1 - 1e-12):
             # A corner: sources may jump and switches change, so the unknowns without storage
             # (and the current through a closing switch) must jump too. A backward-Euler step of
             # negligible length finds that consistent state; the stored ones barely move.
-            state = sys.switch_state(t)
-            eps = t_end * 1e-10
-            x_plus, ok = _stage(sys, fac, eps / D, state, C @ x, t, x, False, weights, stats)
+            state = sys.switch_state(t, dyn)
+            x_plus, ok, eps = _consistent(sys, fac, state, x, t, t_end, weights, stats, floor, stored)
             if ok and np.max(np.abs(x_plus - x) / weights) > 1e-6:
                 left_rows[-1] = True
                 times.append(t)
@@ -311,15 +377,41 @@ def integrate(sys: System, x0: np.ndarray, t_end: float, max_step: float | None 
                 x = x_plus
             z = -sys.F(x, t, state)
             z[alg] = 0.0
+            if fire:
+                watch.check_gap(pending[1], dyn[pending[1]], x, np.zeros(n), t)
         else:
             z = z_new
+        if fire:
+            pending = None
         h = h_next
         if progress is not None:
             progress(t, steps)
     if xds.k > 1:
         xds.set(0, xds.get(1))
     return Waveforms(np.array(times), xs.array(), Columns(xds.array(), keep_d, n), steps, rejected, fac.count,
-                     left_rows=np.array(left_rows), solves=fac.solves, newton=stats["newton"])
+                     left_rows=np.array(left_rows), solves=fac.solves, newton=stats["newton"], events=events)
+
+
+def _fire(sys, fac, watch, dyn, events, k, t, x, t_end, atol, rtol, offset, stats, stored,
+          times, xs, xds, left_rows, keep_d):
+    """Change switch k at the last stored point t and restart from a consistent state there.
+    Returns (x, z) after the change."""
+    dyn[k] = not dyn[k]
+    events.append({"element": sys.switches[k].name, "what": "closes" if dyn[k] else "opens", "time": t})
+    state = sys.switch_state(t, dyn)
+    weights = atol + rtol * np.abs(x - offset)
+    x_plus, ok, eps = _consistent(sys, fac, state, x, t, t_end, weights, stats, (atol, rtol, offset), stored)
+    if ok and np.max(np.abs(x_plus - x) / weights) > 1e-6:
+        left_rows[-1] = True
+        times.append(t)
+        xs.append(x_plus)
+        xds.append(((x_plus - x) / eps)[keep_d])
+        left_rows.append(False)
+        x = x_plus
+    z = -sys.F(x, t, state)
+    z[sys.algebraic_rows] = 0.0
+    watch.check_gap(k, dyn[k], x, np.zeros(len(x)), t)
+    return x, z
 
 
 def _partial(times, xs, xds, keep_d, steps, rejected, fac, t, why, sys=None, x=None, est=None,

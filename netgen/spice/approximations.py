@@ -21,8 +21,9 @@ def _waves(d: Design) -> list[tuple[str, Wave]]:
     return [(what, w) for what, w in out if not w.constant]
 
 
-def jumps(d: Design) -> list[Jump]:
-    """Every instant in the run where a source value jumps or a switch changes state."""
+def jumps(d: Design, events: list | None = None) -> list[Jump]:
+    """Every instant in the run where a source value jumps or a switch changes state (`events`:
+    our run's, of the switches that act on conditions, which the netlist writes at those times)."""
     until = d.transient.until if d.transient else 0.0
     out: list[Jump] = []
     for what, w in _waves(d):
@@ -34,6 +35,7 @@ def jumps(d: Design) -> list[Jump]:
     for sw in d.of_kind(Switch):
         for t1, t2 in sw.intervals:
             out += [Jump(t1, f"switch {sw.name} closes"), Jump(t2, f"switch {sw.name} opens")]
+    out += [Jump(e["time"], f"switch {e['element']} {e['what']}") for e in events or ()]
     return sorted((j for j in out if 0.0 <= j.time <= until), key=lambda j: (j.time, j.what))
 
 

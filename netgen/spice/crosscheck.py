@@ -13,6 +13,7 @@ from netgen.analyses import run
 from netgen.checks.results import Results
 from netgen.model.design import Design, Modes
 from netgen.model.signals import kind_of, parse as parse_signal
+from netgen.solve.events import timeline
 from netgen.solve.signals import SignalEval, signal_texts
 from netgen.solve.steady import solve_dc
 from netgen.spice.resample import Onto, cuts, near, spread
@@ -20,6 +21,7 @@ from netgen.spice.ac import compare as compare_ac
 from netgen.spice.approximations import inputs, jumps, notes
 from netgen.spice.crosscheck_report import Report, Row, Tolerances
 from netgen.spice.netlist import Names, netlist
+from netgen.spice.starts import starts_of
 from netgen.spice.raw import Plot, find_plot
 from netgen.spice.simulator import DEFAULT_SIMULATOR, TIMEOUT, SimulatorError, simulate
 
@@ -40,11 +42,13 @@ def crosscheck(design: Design, simulator: str = DEFAULT_SIMULATOR, tol: Toleranc
     rewrite the netlist text before it is run (to prove that a wrong netlist is caught);
     `keep` is a directory for the netlist, the raw file and the simulator's output; the
     simulator is ended after `timeout` seconds."""
-    text, nm = netlist(design)
+    ours = run(for_comparison(design))
+    starts = starts_of(design)
+    starts.events = ours.events  # a switch acting on a condition changes at our times there
+    text, nm = netlist(design, starts)
     if edit is not None:
         text = edit(text)
     theirs = simulate(text, simulator, keep, env, timeout)
-    ours = run(for_comparison(design))
     return compare(ours, nm, theirs.plots, tol or Tolerances(), theirs.command)
 
 
@@ -64,6 +68,8 @@ def compare(ours: Results, nm: Names, plots: list[Plot], tol: Tolerances,
     """Compare our Results with the simulator's plots (read back through the signal map)."""
     d = ours.design
     sys = assemble(d)
+    sys.timeline = timeline(sys, {k: s.starts_closed for k, s in enumerate(sys.switches) if s.conditional},
+                            ours.events)  # switches acting on conditions, as our run found them
     rep = Report(d.file, command or [])
     if ours.steady is not None:
         op = find_plot(plots, "Operating Point")
@@ -76,7 +82,7 @@ def compare(ours: Results, nm: Names, plots: list[Plot], tol: Tolerances,
         tran = find_plot(plots, "Transient Analysis")
         if tran is None:
             raise SimulatorError("the simulator wrote no transient (.tran) results")
-        rep.jumps = jumps(d)
+        rep.jumps = jumps(d, ours.events)
         rep.window = WINDOW * nm.edge
         rep.transient = _transient(d, sys, nm, ours, tran, tol, rep)
     if ours.responses:

@@ -126,6 +126,8 @@ class _Writer:
         # netlist node → (the element it belongs to, its value from a lookup of our unknowns by name)
         self.internal: dict[str, tuple[str, object]] = {}
         self.ics: list[tuple[int, tuple[str, ...]]] = []  # (line index, our names whose value is IC=)
+        self.events: list | None = None  # our run's switch events, where known (Starts.events)
+        self.switch_notes: list[str] = []  # what a switch acting on a condition became
 
     def _horizon(self) -> float:
         """Without a transient, time shapes are still written out, to twice their last event."""
@@ -326,12 +328,20 @@ def _notes(notes: set[str], edge: float) -> list[str]:
         "switch": "switches are S elements driven by a 0/1 control source whose edges are not "
                   "instantaneous either; the switch changes state as the control crosses 0.5, "
                   "at the closing or opening time",
+        "diode": "a diode is a D model (IS, N, RS) at the simulator's nominal 27 degC, its gmin "
+                 "(1e-12 S) across the junction as in netgen; one `at` a thermal node is a B source "
+                 "with V_T = k*V(node)/q; a 0 V source in series reads its current",
         "sampled": "a shape inside an expression is written as a PWL sampled at the shape's corners "
                    f"(both sides of a jump) and on an even grid of {SAMPLES + 1} points over the run "
                    "(points on a straight line left out); between samples it is linear",
     }
-    return [line for k in ("edge", "switch", "sampled") if k in notes
+    return [line for k in ("edge", "switch", "diode", "sampled") if k in notes
             for line in textwrap.wrap(f"Note: {text[k]}.", 92, initial_indent="* ", subsequent_indent="*   ")]
+
+
+def _switch_notes(w) -> list[str]:
+    return [line for note in w.switch_notes
+            for line in textwrap.wrap(f"Note: {note}.", 92, initial_indent="* ", subsequent_indent="*   ")]
 
 
 def _printable(text: str) -> str:
@@ -349,7 +359,7 @@ def _header(d: Design, w: _Writer) -> list[str]:
            "* capacitance (J/K), thermal resistance = resistance (K/W). Both domains share node 0:",
            "* absolute zero for the thermal side, ground for the electrical side; they are coupled",
            "* only through the controlled (B) sources. Values are plain SI numbers.",
-           *_notes(w.notes, w.edge), "*", "* Names (netlist name: ours):"]
+           *_notes(w.notes, w.edge), *_switch_notes(w), "*", "* Names (netlist name: ours):"]
     grounds = ", ".join(d.grounds)
     out.append("*   0: absolute zero" + (f"; ground {grounds}" if grounds else ""))
     out += [f"*   {spice}: {_signal(d, name)}" for name, spice in nm.nodes.items() if spice != "0"]
@@ -376,6 +386,7 @@ def netlist(design: Design, starts: Starts | None = None) -> tuple[str, Names]:
     are solved here (`starts_of`)."""
     starts = starts_of(design) if starts is None else starts
     w = _Writer(design)
+    w.events = starts.events
     nm = w.names
     nm.signals = {_signal(design, n): f"V({s})" for n, s in nm.nodes.items() if s != "0"}
     w.write()

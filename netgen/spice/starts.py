@@ -17,6 +17,7 @@ class Starts:
     want_op: bool  # the netlist asks for an operating point (`.op`)
     guess: dict[str, float] | None = None  # the steady state, when it could be solved
     initial: dict[str, float] | None = None  # the transient's start, when there is a transient
+    events: list | None = None  # our run's switch events, when it was run (a switch acting on a condition)
 
 
 def starts_of(design: Design) -> Starts:
