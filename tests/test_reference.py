@@ -233,18 +233,25 @@ def test_window_examples_pass_on_the_coil_loop():
     assert len(res.windows) == 1 and res.windows[0]["line"] == 8
 
 
-def test_expect_steady_needs_a_steady_line():
-    _said("or `steady`, the value in the steady state, which needs a `steady` line: without one, "
-          "`expect steady` is an error when the file is read.")
-    text = _whole(_example("expect max T(die)")).replace("steady\ntransient", "transient")
-    with pytest.raises(NetgenError, match="reads the `steady` analysis, which the file does not have"):
-        netgen.load(text)
+def test_expect_steady_solves_without_a_steady_line():
+    """Issue 14: the reference said `expect steady` solves the steady state while the tool refused.
+    The load's steady value is V²/R = (1 V)²/10 ohm = 0.1 W (Joule's law), with or without a
+    `steady` line."""
+    _said("or `steady`, the value in the steady state: `expect steady` solves the steady state as a "
+          "`steady` line does, so it needs no `steady` line of its own.")
+    text = _whole(_example("expect max T(die)"))
+    without = text.replace("steady\ntransient", "transient")
+    assert without != text
+    for t in (text, without):
+        res = netgen.load(t).run()
+        (c,) = [c for c in res.checks if c.text.startswith("expect steady")]
+        assert c.measured == pytest.approx(0.1, rel=1e-9)
 
 
 def test_expectations_and_audits_need_their_analysis():
-    _said("An expectation that needs an analysis the design does not have (`steady` for `expect steady`, "
-          "`transient` for the others) is an error when the file is read, and so are an `at TIME` after the "
-          "end of the transient and a `between` interval that starts after it")
+    _said("An expectation other than `expect steady` on a design without a `transient` is an error when the "
+          "file is read, and so are an `at TIME` after the end of the transient and a `between` interval that "
+          "starts after it")
     _said("An audit needs a `transient`: without one it is an error when the file is read.")
     base = "fixed room 25 degC\nmass m 1 J/K start 30 degC\nlink l m room 1 W/K\n"
     for tail, words in [("steady\nexpect max T(m) < 400 K\n", "reads the `transient` analysis"),

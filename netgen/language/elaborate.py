@@ -648,6 +648,9 @@ class Elaborator(PartsMixin):
             self.errors += e.resolve(d)
         self.errors += response.check(d)
         tr = d.transient
+        asks = next((e for e in d.expectations if e.agg == "steady"), None)
+        if asks is not None and d.steady is None:
+            d.analyses.insert(0, Steady(asks.loc))  # `expect steady` asks for the steady state, as `steady` does
         for e in d.expectations:
             needs = "steady" if e.agg == "steady" else "transient"
             if (needs == "steady" and d.steady is None) or (needs == "transient" and tr is None):

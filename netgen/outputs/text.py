@@ -36,6 +36,8 @@ def describe(d: Design) -> str:
     lines.append(f"  analyses: {', '.join(an)}")
     if d.expectations:
         lines.append(f"  expectations: {len(d.expectations)}")
+    if d.humidity is not None:
+        lines.append(f"  humidity: {humidity_line(d)}")
     modules = d.of_kind(Thermoelectric)
     if modules:
         temps = _start_temperatures(d)
