@@ -5,13 +5,13 @@ import functools
 import re
 from dataclasses import dataclass, field
 
-SIGNAL_UNITS = {"T": "K", "V": "V", "I": "A", "Q": "W", "P": "W"}
+SIGNAL_UNITS = {"T": "K", "V": "V", "I": "A", "Q": "W", "P": "W", "S": "J/K", "E": "J"}
 KINDS = tuple(SIGNAL_UNITS)
 _FORM = re.compile(r"\s*([A-Za-z]+)\s*\(\s*([^(),\s]+)\s*(?:,\s*([^(),\s]+)\s*)?\)\s*")
 
 
 def kind_of(signal) -> str:
-    """The kind (T V I Q P) of a signal, given as a Signal or as text; "" for anything else."""
+    """The kind (T V I Q P S E) of a signal, given as a Signal or as text; "" for anything else."""
     if isinstance(signal, Signal):
         return signal.kind
     try:
