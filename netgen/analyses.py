@@ -11,7 +11,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from netgen.checks.audits import energy_audit, entropy_audit, needed_signals
+from netgen.checks.audits import energy_audit, entropy_audit, inflow, needed_signals
 from netgen.checks.merit import cautions, figures
 from netgen.checks.switching import opening_cautions
 from netgen.checks.results import Check, Results, evaluate_expectation, refs
@@ -218,12 +218,31 @@ def _audit(d: Design, a, transient, sig) -> Check:
     names = needed_signals(d)
     # Each stored sample is consistent with its own side of a corner (a corner is stored twice
     # when the state jumps there), so one evaluation serves as both limits.
-    right = left = {s: sig(s, X, Xd, t, left_rows) for s in names}
+    right = left = audit_waveforms(d, names, transient, sig)
     if a.kind == "energy":
         result = energy_audit(d, t, right, left, a.within)
-        return Check(text, 100 * result.measured, 100 * result.limit, "%", result.passed, a.loc, result.detail)
+        return Check(text, 100 * result.measured, 100 * result.limit, "%", result.passed, a.loc, result.detail,
+                     compare="≤")
     result = entropy_audit(d, t, right, left)
-    return Check(text, result.measured, result.limit, "1", result.passed, a.loc, result.detail)
+    return Check(text, result.measured, result.limit, "1", result.passed, a.loc, result.detail, compare="≥")
+
+
+def audit_waveforms(d: Design, names, transient, sig) -> dict:
+    """The audits' waveforms of solved states: the signals `names`, and the heat flowing into
+    each mass from the system's own equations at each state, −(G·x + f(x) − b(t)) in its row
+    (what C·dT/dt must equal)."""
+    X, Xd, t, left_rows = transient
+    out = {s: sig(s, X, Xd, t, left_rows) for s in names}
+    sys = sig.sys
+    masses = [n for n in d.nodes.values() if n.capacity is not None]
+    if masses:
+        rows = np.array([sys.node_index[n.name] for n in masses])
+        flags = np.broadcast_to(np.asarray(left_rows, dtype=bool), t.shape)
+        heat = np.array([-sys.F(X[k], float(t[k]), sys.switch_state(float(t[k])), bool(flags[k]))[rows]
+                         for k in range(len(t))])
+        for j, n in enumerate(masses):
+            out[inflow(n.name)] = heat[:, j]
+    return out
 
 
 # `design.run()` is `netgen.run(design)`: the model knows no solver, so the runner is handed down here.

@@ -24,6 +24,7 @@ class Check:
     loc: object = None
     detail: str = ""
     celsius: bool = False  # the limit was written in degC: show it so
+    compare: str = ""  # an audit's comparison, printed before its limit: "≤" or "≥"
 
 
 @dataclass

@@ -64,6 +64,7 @@ class Kind(Element):
     defines_voltage: ClassVar[bool] = False  # it fixes the voltage across it (loops of these are singular)
     recorded: ClassVar[str | None] = None  # the signal recorded when a design records nothing
     given: ClassVar[str | None] = None  # the signal that is only its own given value (a heat input's Q)
+    reservoir: ClassVar[bool] = False  # it holds its node at a temperature (the surroundings, for entropy)
     attributes: ClassVar[tuple[str, ...]] = ()  # what may stand in its `{ ... }`, for hints on a typo there
 
     @staticmethod

@@ -21,6 +21,7 @@ class Fixed(Kind):
     noun = "reservoirs"
     branch = "Q"
     signals = ("Q",)
+    reservoir = True
 
     @property
     def terminals(self):

@@ -19,10 +19,11 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from netgen.elements import legs
 from netgen.elements.base import MEAN, TA, TB, Equations, Kind
 from netgen.model import units as U
 from netgen.model.calculus import evaluate_with, split_scale, substitute
-from netgen.model.design import ELECTRICAL, THERMAL
+from netgen.model.design import ELECTRICAL, THERMAL, Node
 from netgen.model.expr import Binary, Const, Expr, Var, evaluate
 
 CURRENT = Var("I")
@@ -56,9 +57,11 @@ class Thermoelectric(Kind):
     form: str = "lumped"  # lumped | couples | rated
     hottest: float | None = None  # highest allowed side temperature, K
     rated_hot: float | None = None  # the hot side its ratings are given at (`rated ... at TEMP`), K
+    segments: int = 1  # slices per leg (legs.py); more than 1 only in the material form
 
     statement = "thermoelectric"
-    attributes = ("pins", "sides", "seebeck", "resistance", "conductance", "couples", "rated", "hottest")
+    attributes = ("pins", "sides", "seebeck", "resistance", "conductance", "couples", "rated", "hottest",
+                  "segments")
     noun = "thermoelectric modules"
     branch = "I"
     signals = ("I", "P")
@@ -70,7 +73,15 @@ class Thermoelectric(Kind):
         return (self.p, self.n, self.a, self.b)
 
     def branches(self):
-        return [(self.p, self.n, "pins"), (self.a, self.b, "sides")]
+        return [(self.p, self.n, "pins")] + [(x, y, "sides") for x, y, _ in self.pieces()]
+
+    def pieces(self) -> list[tuple[str, str, tuple | None]]:
+        """(side-A node, side-B node, S R K expressions of T or None) of each slice of the
+        module: the whole module, or its `segments` slices (legs.py)."""
+        if self.segments == 1:
+            return [(self.a, self.b, self.props)]
+        props = legs.slice_props(self.props, self.segments)
+        return [(x, y, props) for x, y in legs.slices(self)]
 
     def values_at(self, T):
         """S, R, K at mean side temperature T (float or array)."""
@@ -78,11 +89,12 @@ class Thermoelectric(Kind):
             return self.seebeck, self.resistance, self.conductance
         return tuple(evaluate(e, T=T) for e in self.props)
 
-    def own(self) -> tuple[Expr, Expr, Expr]:
-        """S, R, K as expressions of Ta and Tb."""
-        if self.props is None:
+    def own(self, props=False) -> tuple[Expr, Expr, Expr]:
+        """S, R, K as expressions of Ta and Tb: of the whole module, or of one slice's `props`."""
+        props = self.props if props is False else props
+        if props is None:
             return Const(self.seebeck), Const(self.resistance), Const(self.conductance)
-        return tuple(substitute(e, {"T": MEAN}) for e in self.props)
+        return tuple(substitute(e, {"T": MEAN}) for e in props)
 
     # ---- reading ---------------------------------------------------------------------
     @staticmethod
@@ -128,6 +140,8 @@ class Thermoelectric(Kind):
             e.rated_hot = th
         else:
             _read_couples(r, e, at)
+        if "segments" in at:
+            _read_segments(r, e, at["segments"].children[0])
         if "hottest" in at:
             e.hottest = r.const(at["hottest"].children[0], U.TEMPERATURE, "the hottest allowed side temperature",
                                 positive=True)
@@ -137,28 +151,29 @@ class Thermoelectric(Kind):
     @classmethod
     def stamp(cls, batch, st) -> None:
         p, q = st.nodes(batch, "p"), st.nodes(batch, "n")
-        a, b, k = st.nodes(batch, "a"), st.nodes(batch, "b"), st.branches(batch)
+        k = st.branches(batch)
         st.G.branch(p, q, k)  # the current leaves p and enters n; row k holds V(p) − V(n) − ...
-        # Modules share compiled equations: lumped ones with S, R, K as parameters, those of
-        # one material with its expressions, each scaled by the module's own factors.
+        # Modules (or their slices) share compiled equations: lumped ones with S, R, K as
+        # parameters, those of one material with its expressions, each scaled by its own factors.
+        ni = st.node_index
         groups: dict = defaultdict(list)
         for i, e in enumerate(batch):
-            key = "lumped" if e.props is None else tuple(split_scale(x)[1] for x in e.props)
-            groups[key].append(i)
+            for x, y, props in e.pieces():
+                key = "lumped" if props is None else tuple(split_scale(v)[1] for v in props)
+                groups[key].append((k[i], ni[x], ni[y], props, e))
         for key, members in groups.items():
-            m = np.array(members)
+            kk, a, b = (np.array([m[j] for m in members], dtype=np.int64) for j in range(3))
             if key == "lumped":
                 S, R, K = Var("S"), Var("R"), Var("K")
-                params = {"S": st.values([batch[i] for i in members], "seebeck"),
-                          "R": st.values([batch[i] for i in members], "resistance"),
-                          "K": st.values([batch[i] for i in members], "conductance")}
+                params = {"S": st.values([m[4] for m in members], "seebeck"),
+                          "R": st.values([m[4] for m in members], "resistance"),
+                          "K": st.values([m[4] for m in members], "conductance")}
             else:
                 S, R, K = (Var(f) * substitute(x, {"T": MEAN}) for f, x in zip(("fS", "fR", "fK"), key))
-                factors = np.array([[split_scale(x)[0] for x in batch[i].props] for i in members]).T
+                factors = np.array([[split_scale(v)[0] for v in m[3]] for m in members]).T
                 params = dict(zip(("fS", "fR", "fK"), factors))
             volt, heat_a, heat_b = equations(S, R, K)
-            st.equations(Equations([(k[m], -volt), (a[m], heat_a), (b[m], -heat_b)],
-                                   {"Ta": a[m], "Tb": b[m], "I": k[m]}, params))
+            st.equations(Equations([(kk, -volt), (a, heat_a), (b, -heat_b)], {"Ta": a, "Tb": b, "I": kk}, params))
 
     def signal(self, kind, side, p):
         i = p.branch(self.name)
@@ -166,9 +181,10 @@ class Thermoelectric(Kind):
             return i
         if kind == "P":
             return p.across(self.p, self.n) * i
-        _, heat_a, heat_b = equations(*self.own())
+        x, y, props = self.pieces()[0 if side == "a" else -1]
+        _, heat_a, heat_b = equations(*self.own(props))
         heat = heat_a if side == "a" else heat_b
-        return np.broadcast_to(evaluate_with(heat, {"Ta": p.node(self.a), "Tb": p.node(self.b), "I": i}),
+        return np.broadcast_to(evaluate_with(heat, {"Ta": p.node(x), "Tb": p.node(y), "I": i}),
                                (p.X.shape[0],))
 
     def thermal_conductance(self):
@@ -176,21 +192,65 @@ class Thermoelectric(Kind):
 
     # ---- netlist ---------------------------------------------------------------------------
     def netlist(self, w, s) -> None:
-        pn, nn, ta, tb = (w.node(x) for x in (self.p, self.n, self.a, self.b))
+        pn, nn = w.node(self.p), w.node(self.n)
         m, sense = f"x_{s}_m", f"vte_{s}"
         w.internal_node(m, self.name, lambda value: value(f"V({self.n})"))  # the sense holds 0 V
-        values = {"Ta": w.v(ta), "Tb": w.v(tb), "I": f"I({sense})"}
-        volt, heat_a, heat_b = (w.expr(x, values) for x in equations(*self.own()))
-        w.add(f"bte_{s}", pn, m, f"V={volt}")
+        pieces = self.pieces()
+        many = len(pieces) > 1
+        # A segmented module: its slices' voltages in series, p → x_S_e1 → ... → m.
+        ends = [pn] + [f"x_{s}_e{j}" for j in range(1, len(pieces))] + [m]
+        trees = [equations(*self.own(props)) for _, _, props in pieces]
+        for j in range(1, len(pieces)):
+            w.internal_node(ends[j], self.name, self._chain_value(pieces[j:], trees[j:]))
+        heats = []
+        for j, ((x, y, _), eqs) in enumerate(zip(pieces, trees), 1):
+            ta, tb = w.node(x), w.node(y)
+            values = {"Ta": w.v(ta), "Tb": w.v(tb), "I": f"I({sense})"}
+            volt, heat_a, heat_b = (w.expr(z, values) for z in eqs)
+            tag, where = (f"{s}_{j}", f" slice {j}") if many else (s, "")
+            w.add(f"bte_{tag}", ends[j - 1], ends[j], f"V={volt}")
+            w.row(f"bte_{tag}", f"thermoelectric {self.name}{where}: "
+                  + ("V = R*I + S*(T_b - T_a)" if many else "V(p) - V(n) = R*I + S*(T_b - T_a)"))
+            side_a = f"Q({self.name}.a): " if j == 1 else ""
+            side_b = f"Q({self.name}.b): " if j == len(pieces) else ""
+            heats += [(f"bteqa_{tag}", ta, 0, f"I={heat_a}", f"thermoelectric {self.name}{where}: {side_a}heat taken from {x}"),
+                      (f"bteqb_{tag}", 0, tb, f"I={heat_b}", f"thermoelectric {self.name}{where}: {side_b}heat given to {y}")]
         w.add(sense, m, nn, "DC 0")
-        w.add(f"bteqa_{s}", ta, 0, f"I={heat_a}")
-        w.add(f"bteqb_{s}", 0, tb, f"I={heat_b}")
-        for name, what in ((f"bte_{s}", "V(p) - V(n) = R*I + S*(T_b - T_a)"),
-                           (sense, f"0 V sense: I({self.name}) from {self.p} to {self.n}"),
-                           (f"bteqa_{s}", f"Q({self.name}.a): heat taken from {self.a}"),
-                           (f"bteqb_{s}", f"Q({self.name}.b): heat given to {self.b}")):
-            w.row(name, f"thermoelectric {self.name}: {what}")
+        w.row(sense, f"thermoelectric {self.name}: 0 V sense: I({self.name}) from {self.p} to {self.n}")
+        for name, na, nb, value, what in heats:
+            w.add(name, na, nb, value)
+            w.row(name, what)
         w.signal(f"I({self.name})", f"I({sense})")
+
+    def _chain_value(self, rest, trees):
+        """The voltage of the series node before slices `rest`: V(n) plus their voltages."""
+        def value(lookup):
+            i = lookup(f"I({self.name})")
+            return lookup(f"V({self.n})") + sum(
+                float(evaluate_with(volt, {"Ta": lookup(f"T({x})"), "Tb": lookup(f"T({y})"), "I": i}))
+                for (x, y, _), (volt, _, _) in zip(rest, trees))
+        return value
+
+
+def _read_segments(r, e: Thermoelectric, tree) -> None:
+    """`segments N`: each leg of a material-form module cut into N slices (legs.py), with the
+    internal thermal nodes NAME.joint1 .. NAME.joint{N-1} added to the design."""
+    if e.form != "couples":
+        raise r.err(tree, f"`segments` needs the material form of thermoelectric `{e.name}`",
+                    "slices take the material's properties at their own temperature: write "
+                    "`couples N material M leg AREA LENGTH  segments 20`")
+    n = r.const(tree, U.NONE, "the number of segments", positive=True)
+    if n != int(n) or n > legs.MAX_SEGMENTS:
+        raise r.err(tree, f"the number of segments must be a whole number from 1 to {legs.MAX_SEGMENTS}, not {n:g}",
+                    "for example `segments 20`")
+    e.segments = int(n)
+    if e.segments > 1 and e.props is None:  # constant properties: sliced all the same
+        e.props = tuple(Const(v) for v in (e.seebeck, e.resistance, e.conductance))
+    for name in legs.joint_names(e.name, e.segments):
+        if name in r.design.nodes:
+            raise r.err(tree, f"node `{name}` is already used; the slices of `{e.name}` need it as their joint",
+                        f"rename the node or the module `{e.name}`")
+        r.design.nodes[name] = Node(name, THERMAL, e.loc, owner=e.name)
 
 
 def _read_couples(r, e: Thermoelectric, at) -> None:

@@ -442,7 +442,7 @@ class Elaborator(PartsMixin):
             kind = str(s.children[0])
             names = tuple(str(c) for c in s.children[1:] if c is not None)
             if kind not in SIGNAL_KINDS:
-                raise self.err(s, f"unknown signal `{kind}(...)`", "signals are T(node) V(node) I(elem) Q(elem) P(elem)")
+                raise self.err(s, f"unknown signal `{kind}(...)`", "signals are T(node) V(node) I(elem) Q(elem) P(elem) U(controller) S(total) E(total)")
             line = self.lines[s.meta.line - 1] if s.meta.line == s.meta.end_line else ""
             written = line[s.meta.column - 1: s.meta.end_column - 1] if line else ""
             sig = Signal(kind, names, self.loc(s), written)
@@ -578,7 +578,7 @@ class Elaborator(PartsMixin):
             kind = str(s.children[0])
             names = tuple(str(c) for c in s.children[1:] if c is not None)
             if kind not in SIGNAL_KINDS:
-                raise self.err(s, f"unknown signal `{kind}(...)`", "signals are T(node) V(node) I(elem) Q(elem) P(elem)")
+                raise self.err(s, f"unknown signal `{kind}(...)`", "signals are T(node) V(node) I(elem) Q(elem) P(elem) U(controller) S(total) E(total)")
             signals.append(Signal(kind, names, self.loc(s)).text)
             self.pending_signals.append((kind, names, s))
         entry = BaselineTolerance(tuple(signals), self.loc(t))
@@ -637,7 +637,8 @@ class Elaborator(PartsMixin):
         self.pending_signals.append((kind, names, tree))
         if kind == "U":
             return controlled_dim(self.design, names, lambda m, h: self.err(tree, m, h))
-        return {"T": U.TEMPERATURE, "V": U.VOLTAGE, "I": U.CURRENT, "Q": U.POWER, "P": U.POWER}[kind]
+        return {"T": U.TEMPERATURE, "V": U.VOLTAGE, "I": U.CURRENT, "Q": U.POWER, "P": U.POWER,
+                "S": U.HEAT_CAPACITY, "E": U.ENERGY}[kind]
 
     def finish(self):
         """What can only be judged once the whole file is read."""
@@ -724,6 +725,11 @@ def check_signal(d: Design, kind: str, names: tuple[str, ...]) -> None:
 
     if kind == "U":
         controller_signal(d, names)
+        return
+    if kind in ("S", "E"):
+        if names != ("total",):
+            what = "the entropy produced so far" if kind == "S" else "the energy stored so far"
+            raise ValueError(f"`{kind}(...)` is {what} of the whole design: write {kind}(total)", None)
         return
     if kind in ("T", "V"):
         want = THERMAL if kind == "T" else ELECTRICAL

@@ -19,7 +19,7 @@ _NUM = re.compile(r"^((?:[0-9]+(?:\.[0-9]+)?|\.[0-9]+)(?:[eE][+-]?[0-9]+)?)[ \t]
 
 FUNCTIONS = ("sqrt", "exp", "log", "abs", "min", "max", "sin", "cos")
 SHAPES = ("step", "ramp", "pulse", "sine", "table")
-SIGNAL_KINDS = ("T", "V", "I", "Q", "P", "U")
+SIGNAL_KINDS = ("T", "V", "I", "Q", "P", "U", "S", "E")
 MAX_NODES = 10_000  # terms of one value with the parameters it names written out (MAX_DEPTH: plain_lines.py)
 RESERVED = ("time", "pi")
 

@@ -17,7 +17,7 @@ def read(r, t) -> None:
     kind = str(sig.children[0])
     names = tuple(str(c) for c in sig.children[1:] if c is not None)
     if kind not in ("T", "V", "I", "Q", "P", "U"):
-        raise r.err(sig, f"unknown signal `{kind}(...)`", "signals are T(node) V(node) I(elem) Q(elem) P(elem) U(controller)")
+        raise r.err(sig, f"unknown signal `{kind}(...)`", "signals are T(node) V(node) I(elem) Q(elem) P(elem) U(controller) S(total) E(total)")
     r.pending_signals.append((kind, names, sig))
     f1 = f2 = points = None
     if f1_t is not None:

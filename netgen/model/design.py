@@ -34,6 +34,7 @@ class Node:
     loc: Loc
     capacity: float | None = None
     start: float | None = None
+    owner: str | None = None  # the element whose internal node it is (a module's joints), not recorded by default
 
 
 @dataclass

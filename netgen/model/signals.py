@@ -6,13 +6,13 @@ import re
 from dataclasses import dataclass, field
 
 # U: a controller's output or state, in the unit of the source it drives (one of A, V, W).
-SIGNAL_UNITS = {"T": "K", "V": "V", "I": "A", "Q": "W", "P": "W", "U": ""}
+SIGNAL_UNITS = {"T": "K", "V": "V", "I": "A", "Q": "W", "P": "W", "U": "", "S": "J/K", "E": "J"}
 KINDS = tuple(SIGNAL_UNITS)
 _FORM = re.compile(r"\s*([A-Za-z]+)\s*\(\s*([^(),\s]+)\s*(?:,\s*([^(),\s]+)\s*)?\)\s*")
 
 
 def kind_of(signal) -> str:
-    """The kind (T V I Q P) of a signal, given as a Signal or as text; "" for anything else."""
+    """The kind (T V I Q P S E) of a signal, given as a Signal or as text; "" for anything else."""
     if isinstance(signal, Signal):
         return signal.kind
     try:

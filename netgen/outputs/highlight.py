@@ -23,7 +23,7 @@ STATEMENTS = ("design", "let", "mass", "fixed", "link", "heat", "ground", "radia
               "part", "use", "include", "plate", "steady", "transient", "modes", "response", "record", "expect",
               "audit", "baseline", "humidity")
 ATTRIBUTES = ("start", "heats", "tempco", "closed", "on", "off", "pins", "sides", "seebeck", "resistance",
-              "conductance", "couples", "rated", "resistivity", "conductivity", "hottest", "step",
+              "conductance", "couples", "rated", "resistivity", "conductivity", "hottest", "segments", "step",
               "tolerance", "emissivity", "area", "view", "coefficient", "exponent", "cell", "thickness",
               "density", "specific", "capacity", "proportional", "integral", "derivative", "output", "tracking",
               "filter", "saturation", "emission", "series", "at", "opens", "closes")
@@ -33,7 +33,7 @@ AGGREGATES = ("max", "min", "final", "mean", "steady")
 AUDITS = ("energy", "entropy")
 FUNCTIONS = ("sqrt", "abs", "min", "max", "exp", "log", "sin", "cos", "step", "ramp", "pulse", "sine", "table")
 RESERVED = ("pi", "time")
-SIGNAL_KINDS = "TVIPQU"
+SIGNAL_KINDS = "TVIPQUSE"
 
 NAME = r"[A-Za-z_][A-Za-z0-9_]*(?:\.[A-Za-z_][A-Za-z0-9_]*)*"
 END = r"(?![A-Za-z0-9_]|\.[A-Za-z_])"  # a whole word: not the start of a longer (or dotted) name

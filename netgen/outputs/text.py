@@ -152,7 +152,7 @@ def check_text(c) -> str:
     where = f"{c.loc.line}: " if c.loc is not None else ""
     detail = f" ({c.detail})" if c.detail else ""
     return (f"{mark}  {where}{c.text}   measured {_value(c.measured, c.unit, c.celsius)}, "
-            f"limit {_value(c.limit, c.unit, c.celsius)}{detail}")
+            f"limit {c.compare + ' ' if c.compare else ''}{_value(c.limit, c.unit, c.celsius)}{detail}")
 
 
 def print_figures(res: Results, out) -> None:
