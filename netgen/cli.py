@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import argparse
+import json
 import sys
 from pathlib import Path
 
@@ -164,6 +165,89 @@ def cmd_verify(args) -> int:
 
 
 
+def _study_start(args, name: str):
+    """What `sweep` and `tolerance` share before their runs: output folders checked, the file
+    read once and checked, the executor."""
+    from netgen.language.elaborate import load_text, read_source
+    from netgen.outputs.files import make_dir, output_dir
+    from netgen.studies.executors import executor
+
+    out = output_dir(args.out, "--out") or Path(".")
+    output_dir(args.plot, "--plot")
+    if args.plot:
+        from netgen.outputs.plots import require
+
+        require()
+    settings = _settings(args.set)
+    text = read_source(args.file)
+    _notes(load_text(text, args.file, settings))
+    ex = executor(args.jobs, args.cluster)
+    make_dir(out)
+    progress = None
+    if sys.stderr.isatty() and not args.quiet and not args.json:
+        from netgen.outputs.study_text import StudyProgress
+
+        progress = StudyProgress(name)
+    return out, settings, text, ex, progress
+
+
+def _study_end(args, name: str, out: Path, outcome, files: dict, doc: dict, cols, body, stream: Path) -> int:
+    """Write the study's files (also after an interruption, with the runs that finished), print
+    the table or the JSON document, and say how far an interrupted study got."""
+    import json
+
+    from netgen.outputs.files import write_set
+    from netgen.outputs.study_text import rows_table
+
+    write_set(files)
+    stream.unlink(missing_ok=True)  # its rows are in the files now
+    if args.json:
+        print(json.dumps({**doc, "rows": body}, indent=1))
+    else:
+        print(rows_table(cols, body))
+        for path in files:
+            print(f"wrote {path}")
+    if outcome.failed and not args.json:
+        print(f"{outcome.failed} of {outcome.finished} runs failed: each has its error in the `error` column",
+              file=sys.stderr)
+    if outcome.interrupted:
+        print(f"netgen {name}: interrupted: {outcome.how_far()}; their rows are in {out / (name + '.csv')}",
+              file=sys.stderr)
+        return 130
+    return EXIT_OK
+
+
+def cmd_sweep(args) -> int:
+    from netgen.studies.runner import csv_text, jsonable, table
+    from netgen.studies.sweep import best_line, read_axes, run_sweep
+
+    out, settings, text, ex, progress = _study_start(args, "sweep")
+    try:
+        axes = read_axes(text, args.file, settings, args.vary, args.log or [])
+        stream = out / "sweep.partial.jsonl"
+        s = run_sweep(text, args.file, settings, axes, ex, tuple(args.best) if args.best else None, progress, stream)
+    finally:
+        ex.close()
+        if progress is not None:
+            progress.done()
+    cols, body = table(s.outcome, s.lead)
+    doc = jsonable(s.document())
+    files = {out / "sweep.csv": csv_text(cols, body), out / "sweep.json": json.dumps(doc, indent=1) + "\n"}
+    code = _study_end(args, "sweep", out, s.outcome, files, doc, cols, jsonable(body), stream)
+    if not args.json:
+        for note in s.notes:
+            print(f"note: {note}", file=sys.stderr)
+        if s.best is not None:
+            print(best_line(s))
+    if args.plot and body:
+        from netgen.outputs.study_plots import sweep_plots
+
+        n = len(sweep_plots(Path(args.plot), axes, cols, body, s.best))
+        print(f"wrote {n} plots to {args.plot}", file=sys.stderr if args.json else sys.stdout)
+    return code
+
+
+
 
 def cmd_export(args) -> int:
     from netgen.outputs.files import output_file
@@ -241,6 +325,17 @@ def cmd_matrices(args) -> int:
     return EXIT_OK
 
 
+def _study_options(sp, name: str) -> None:
+    where = sp.add_mutually_exclusive_group()
+    where.add_argument("--jobs", type=int, metavar="N", help="run on N local processes (default: the number of cores)")
+    where.add_argument("--cluster", metavar="ADDRESS",
+                    help="run on a Dask scheduler (tcp://host:8786), or `local` for a cluster on this machine")
+    sp.add_argument("--out", metavar="DIR", help=f"write {name}.csv and {name}.json into DIR (default: here)")
+    sp.add_argument("--plot", metavar="DIR", help="write PNG plots into DIR (needs matplotlib)")
+    sp.add_argument("--json", action="store_true", help="print one JSON document instead of the table")
+    sp.add_argument("--quiet", action="store_true", help="no progress line")
+
+
 def build_parser() -> argparse.ArgumentParser:
     p = _Parser(prog="netgen", description="Coupled heat-and-electricity networks from .etn descriptions.")
     p.add_argument("--version", action="version", version=f"netgen {__version__}")
@@ -276,6 +371,13 @@ def build_parser() -> argparse.ArgumentParser:
     v.add_argument("--junit", metavar="OUT.xml", help="write a JUnit XML test report")
     v.add_argument("--report", metavar="OUT.html", help="write a self-contained HTML report (needs matplotlib)")
     v.set_defaults(func=cmd_verify)
+    sw = add("sweep", cmd_sweep, "run a design at every point of a grid of parameter values")
+    sw.add_argument("--vary", action="append", required=True, metavar="NAME=FROM..TO[:COUNT]",
+                    help="a parameter and its range, e.g. --vary I_drive=0.5A..3A:11 (repeatable: a grid)")
+    sw.add_argument("--log", action="append", metavar="NAME", help="space the values of NAME evenly on a log scale")
+    sw.add_argument("--best", nargs=2, metavar=("max|min", "COLUMN"),
+                    help="the point where COLUMN is largest or smallest, e.g. --best max 'COP(tec)'")
+    _study_options(sw, "sweep")
     e = add("export", cmd_export, "write the SPICE netlist of a description")
     e.add_argument("-o", "--output", metavar="OUT.cir", help="file to write (default: standard output)")
     x = add("crosscheck", cmd_crosscheck,
