@@ -248,6 +248,52 @@ def cmd_sweep(args) -> int:
 
 
 
+def cmd_tolerance(args) -> int:
+    from netgen.outputs.study_text import stats_table, yield_lines
+    from netgen.studies.runner import csv_text, jsonable, table
+    from netgen.studies.tolerance import run_tolerance
+
+    out, settings, text, ex, progress = _study_start(args, "tolerance")
+    stream = out / "tolerance.partial.jsonl"
+    try:
+        t = run_tolerance(text, args.file, settings, args.runs, args.seed, ex, progress, stream)
+    finally:
+        ex.close()
+        if progress is not None:
+            progress.done()
+    cols, body = table(t.outcome, t.lead)
+    doc = jsonable(t.document(cols))
+    files = {out / "tolerance.csv": csv_text(cols, body), out / "tolerance.json": json.dumps(doc, indent=1) + "\n"}
+    if args.json:
+        code = _study_end(args, "tolerance", out, t.outcome, files, doc, cols, jsonable(body), stream)
+    else:
+        from netgen.outputs.files import write_set
+
+        write_set(files)
+        stream.unlink(missing_ok=True)
+        print(f"{t.outcome.how_far()} (seed {t.seed})")
+        print("\n".join(yield_lines(doc["yield"])) or "no expectations: no yield")
+        if doc["stats"]:
+            print(stats_table(doc["stats"]))
+        for path in files:
+            print(f"wrote {path}")
+        code = EXIT_OK
+        if t.outcome.failed:
+            print(f"{t.outcome.failed} of {t.outcome.finished} runs failed: each has its error in the `error` column "
+                  "of tolerance.csv; a failed run counts as not meeting the expectations", file=sys.stderr)
+        if t.outcome.interrupted:
+            print(f"netgen tolerance: interrupted: {t.outcome.how_far()}; their rows are in {out / 'tolerance.csv'}",
+                  file=sys.stderr)
+            code = 130
+    if args.plot and body:
+        from netgen.outputs.study_plots import histograms
+
+        n = len(histograms(Path(args.plot), [c for c in cols if c not in ("run", "error")], body))
+        print(f"wrote {n} histograms to {args.plot}", file=sys.stderr if args.json else sys.stdout)
+    return code
+
+
+
 
 def cmd_export(args) -> int:
     from netgen.outputs.files import output_file
@@ -378,6 +424,11 @@ def build_parser() -> argparse.ArgumentParser:
     sw.add_argument("--best", nargs=2, metavar=("max|min", "COLUMN"),
                     help="the point where COLUMN is largest or smallest, e.g. --best max 'COP(tec)'")
     _study_options(sw, "sweep")
+    tl = add("tolerance", cmd_tolerance, "run a design many times with its `spread` parameters drawn")
+    tl.add_argument("--runs", type=int, required=True, metavar="N", help="how many runs")
+    tl.add_argument("--seed", type=int, default=0, metavar="S",
+                    help="seed of the draws (default 0): run k draws the same values whatever the executor")
+    _study_options(tl, "tolerance")
     e = add("export", cmd_export, "write the SPICE netlist of a description")
     e.add_argument("-o", "--output", metavar="OUT.cir", help="file to write (default: standard output)")
     x = add("crosscheck", cmd_crosscheck,

@@ -116,6 +116,16 @@ class BaselineTolerance:
 
 
 @dataclass
+class Spread:
+    """`let NAME = VALUE spread normal|uniform SHARE`: how a tolerance study draws the value, as a
+    share of the nominal value (σ for normal, the half-width for uniform)."""
+
+    law: str
+    share: float
+    loc: Loc
+
+
+@dataclass
 class Design:
     """Everything a description says, in SI. Every later stage reads only this."""
 
@@ -132,6 +142,7 @@ class Design:
     materials: dict[str, Material] = field(default_factory=dict)
     baseline_tolerances: list[BaselineTolerance] = field(default_factory=list)
     celsius: bool = False  # the text wrote temperatures in degC: show °C beside K
+    spreads: dict[str, Spread] = field(default_factory=dict)  # by parameter name, for tolerance studies
 
     def element(self, name: str) -> Element | None:
         for e in self.elements:

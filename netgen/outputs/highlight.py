@@ -27,7 +27,7 @@ ATTRIBUTES = ("start", "heats", "tempco", "closed", "on", "off", "pins", "sides"
               "tolerance", "emissivity", "area", "view", "coefficient", "exponent", "cell", "thickness",
               "density", "specific", "capacity")
 CLAUSES = ("until", "within", "between", "and", "at", "ref", "material", "leg", "imax", "vmax", "dtmax",
-           "by", "with")
+           "by", "with", "spread", "normal", "uniform")
 AGGREGATES = ("max", "min", "final", "mean", "steady")
 AUDITS = ("energy", "entropy")
 FUNCTIONS = ("sqrt", "abs", "min", "max", "exp", "log", "sin", "cos", "step", "ramp", "pulse", "sine", "table")

@@ -56,3 +56,21 @@ def rows_table(cols: list[str], body: list[dict]) -> str:
             line += f"  failed: {d['error']}"
         lines.append(line.rstrip())
     return "\n".join(lines)
+
+
+def yield_lines(yields: list[dict]) -> list[str]:
+    """`line 12: expect final T(die) < 0 degC: yield 97.0 % (95 % interval 93.1 % to 98.8 %), 485 of 500`."""
+    return [f"line {y['line']}: {y['expectation']}: yield {100 * y['yield']:.1f} % (95 % interval "
+            f"{100 * y['low']:.1f} % to {100 * y['high']:.1f} %), {y['passed']} of {y['runs']} runs pass"
+            for y in yields]
+
+
+def stats_table(stats: dict) -> str:
+    """One line per measured column: mean, std, p1, p50, p99, the worst value and its run."""
+    head = ["column", "mean", "std", "p1", "p50", "p99", "worst", "run"]
+    cells = [[c, *(f"{s[k]:.6g}" for k in ("mean", "std", "p1", "p50", "p99")), f"{s['worst']['value']:.6g}",
+              str(s["worst"]["run"])] for c, s in stats.items()]
+    widths = [max([len(h)] + [len(r[k]) for r in cells]) for k, h in enumerate(head)]
+    lines = ["  ".join(h.ljust(w) if k == 0 else h.rjust(w) for k, (h, w) in enumerate(zip(head, widths)))]
+    lines += ["  ".join(x.ljust(w) if k == 0 else x.rjust(w) for k, (x, w) in enumerate(zip(r, widths))) for r in cells]
+    return "\n".join(lines)

