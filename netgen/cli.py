@@ -49,7 +49,12 @@ def cmd_check(args) -> int:
     from netgen.outputs.text import describe
 
     d = _load(args)
-    print(describe(d))
+    if args.json:
+        from netgen.outputs.json_docs import design_document, dumps
+
+        print(dumps(design_document(d)))
+    else:
+        print(describe(d))
     _notes(d)
     return EXIT_OK
 
@@ -69,7 +74,7 @@ def cmd_run(args) -> int:
     d = _load(args)
     _notes(d)
     progress = None
-    if sys.stderr.isatty() and not args.quiet:
+    if sys.stderr.isatty() and not args.quiet and not args.json:
         from netgen.outputs.text import Progress
 
         progress = Progress(d.transient.until if d.transient else 1.0)
@@ -87,10 +92,15 @@ def cmd_run(args) -> int:
     finally:
         if progress is not None:
             progress.done()
-    print_results(res)
+    if args.json:
+        from netgen.outputs.json_docs import dumps, run_document
+
+        print(dumps(run_document(res)))
+    else:
+        print_results(res)
     if out is not None:
         for path in write_outputs(res, out):
-            print(f"wrote {path}")
+            print(f"wrote {path}", file=sys.stderr if args.json else sys.stdout)
     if args.plot or args.report:
         _run_pictures(args, res)
     return EXIT_OK if res.passed else EXIT_FAILED
@@ -140,23 +150,38 @@ def cmd_verify(args) -> int:
             folder = baseline_path(f, directory).parent
             output_dir(str(folder), "--baseline", label=f"--update-baseline: the baseline folder of `{f}`")
     outcomes = []
-    for f in files:
-        o = verify_file(f, settings, directory, rtol, per_signal, args.update_baseline)
-        print("\n".join(outcome_lines(o)), flush=True)
+    if args.jobs is not None and args.jobs < 1:
+        raise NetgenError(f"-j {args.jobs}: expected at least 1", None, "e.g. -j 4")
+    if args.jobs and args.jobs > 1 and len(files) > 1:
+        from netgen.regression.parallel import verify_files
+
+        done = verify_files(files, min(args.jobs, len(files)), settings=settings, directory=directory, rtol=rtol,
+                            per_signal=per_signal, update=args.update_baseline)
+    else:
+        done = (verify_file(f, settings, directory, rtol, per_signal, args.update_baseline) for f in files)
+    for o in done:  # in the order given, whether run here or on a pool
+        if not args.json:
+            print("\n".join(outcome_lines(o)), flush=True)
         outcomes.append(o)
-    print(total_line(outcomes))
+    report = sys.stderr if args.json else sys.stdout
+    if args.json:
+        from netgen.outputs.json_docs import dumps, verify_document
+
+        print(dumps(verify_document(outcomes, total_line(outcomes), exit_code(outcomes))))
+    else:
+        print(total_line(outcomes))
     if args.junit:
         from netgen.outputs.junit import junit_xml
         from netgen.outputs.files import write_atomic
 
         write_atomic(Path(args.junit), junit_xml(outcomes))
-        print(f"wrote {args.junit}")
+        print(f"wrote {args.junit}", file=report)
     if args.report:
         from netgen.outputs.files import write_atomic
         from netgen.outputs.html import html_report
 
         write_atomic(Path(args.report), html_report(outcomes, "netgen verify"))
-        print(f"wrote {args.report}")
+        print(f"wrote {args.report}", file=report)
     unused = [s for s in per_signal if not any(o.results and s in o.results.signals for o in outcomes)]
     if unused:
         print(f"netgen: error: --rtol names {', '.join(unused)}, which no design records", file=sys.stderr)
@@ -395,10 +420,12 @@ def build_parser() -> argparse.ArgumentParser:
         sp_.set_defaults(func=func)
         return sp_
 
-    add("check", cmd_check, "read and check a description; print what it holds")
+    c = add("check", cmd_check, "read and check a description; print what it holds")
+    c.add_argument("--json", action="store_true", help="print what it holds as one JSON document")
     r = add("run", cmd_run, "solve the description's analyses and print a summary")
     r.add_argument("--out", metavar="DIR", help="write transient.csv and summary.json into DIR")
     r.add_argument("--quiet", action="store_true", help="no progress line")
+    r.add_argument("--json", action="store_true", help="print the summary (as in summary.json) as one JSON document")
     r.add_argument("--plot", metavar="DIR", help="write a PNG and an SVG plot of each recorded signal into DIR (needs matplotlib)")
     r.add_argument("--report", metavar="OUT.html", help="write a self-contained HTML report (needs matplotlib)")
     v = sub.add_parser("verify", help="run designs, check expectations and audits, compare with baselines",
@@ -415,6 +442,9 @@ def build_parser() -> argparse.ArgumentParser:
     v.add_argument("--set", action="append", metavar="NAME=VALUE",
                    help="override a `let` parameter in every design, e.g. --set I_drive=1.5A (repeatable)")
     v.add_argument("--junit", metavar="OUT.xml", help="write a JUnit XML test report")
+    v.add_argument("-j", "--jobs", type=int, metavar="N", help="verify N designs at a time on local processes "
+                   "(default 1); the output keeps the order of the designs")
+    v.add_argument("--json", action="store_true", help="print one JSON document instead of the lines")
     v.add_argument("--report", metavar="OUT.html", help="write a self-contained HTML report (needs matplotlib)")
     v.set_defaults(func=cmd_verify)
     sw = add("sweep", cmd_sweep, "run a design at every point of a grid of parameter values")

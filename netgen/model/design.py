@@ -144,6 +144,12 @@ class Design:
     celsius: bool = False  # the text wrote temperatures in degC: show °C beside K
     spreads: dict[str, Spread] = field(default_factory=dict)  # by parameter name, for tolerance studies
 
+    def __repr__(self) -> str:
+        n, e = len(self.nodes), len(self.elements)
+        analyses = "+".join(type(a).__name__.lower() for a in self.analyses) or "no analysis"
+        title = f" {self.title!r}" if self.title else ""
+        return f"<Design {self.file}{title}: {n} node{'s' * (n != 1)}, {e} element{'s' * (e != 1)}, {analyses}>"
+
     def element(self, name: str) -> Element | None:
         for e in self.elements:
             if e.name == name:

@@ -46,13 +46,18 @@ class Pool:
         self.pool = cf.ProcessPoolExecutor(max_workers=jobs, initializer=_ignore_interrupt)
 
     def rows(self, tasks: list[Task]) -> Iterator[Row]:
+        self.finished = False
         futures = [self.pool.submit(run_task, t) for t in tasks]
         for f in cf.as_completed(futures):
             yield f.result()
+        self.finished = True
 
     def close(self) -> None:
-        # Pending runs are cancelled; runs under way are ended with their workers, so an
-        # interrupted study stops now rather than after its longest run.
+        if getattr(self, "finished", True):  # every run done: the workers end as usual
+            self.pool.shutdown(wait=True)
+            return
+        # Interrupted: pending runs are cancelled, and runs under way are ended with their
+        # workers, so the study stops now rather than after its longest run.
         processes = list((getattr(self.pool, "_processes", None) or {}).values())
         self.pool.shutdown(wait=False, cancel_futures=True)
         for p in processes:
