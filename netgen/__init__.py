@@ -10,7 +10,8 @@ import importlib
 __version__ = "0.1.0"
 
 _API = {
-    "load": "netgen.api", "run": "netgen.api", "Design": "netgen.model.design",
+    "load": "netgen.api", "run": "netgen.api", "sweep": "netgen.api", "tolerance": "netgen.api",
+    "Design": "netgen.model.design",
     "Results": "netgen.checks.results", "NetgenError": "netgen.model.errors",
 }
 
@@ -27,4 +28,4 @@ def __dir__():
     return sorted(list(globals()) + list(_API))
 
 
-__all__ = ["load", "run", "Design", "Results", "NetgenError", "__version__"]
+__all__ = ["load", "run", "sweep", "tolerance", "Design", "Results", "NetgenError", "__version__"]

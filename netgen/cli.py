@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import argparse
+import json
 import sys
 from pathlib import Path
 
@@ -48,7 +49,12 @@ def cmd_check(args) -> int:
     from netgen.outputs.text import describe
 
     d = _load(args)
-    print(describe(d))
+    if args.json:
+        from netgen.outputs.json_docs import design_document, dumps
+
+        print(dumps(design_document(d)))
+    else:
+        print(describe(d))
     _notes(d)
     return EXIT_OK
 
@@ -68,7 +74,7 @@ def cmd_run(args) -> int:
     d = _load(args)
     _notes(d)
     progress = None
-    if sys.stderr.isatty() and not args.quiet:
+    if sys.stderr.isatty() and not args.quiet and not args.json:
         from netgen.outputs.text import Progress
 
         progress = Progress(d.transient.until if d.transient else 1.0)
@@ -86,10 +92,15 @@ def cmd_run(args) -> int:
     finally:
         if progress is not None:
             progress.done()
-    print_results(res)
+    if args.json:
+        from netgen.outputs.json_docs import dumps, run_document
+
+        print(dumps(run_document(res)))
+    else:
+        print_results(res)
     if out is not None:
         for path in write_outputs(res, out):
-            print(f"wrote {path}")
+            print(f"wrote {path}", file=sys.stderr if args.json else sys.stdout)
     if args.plot or args.report:
         _run_pictures(args, res)
     return EXIT_OK if res.passed else EXIT_FAILED
@@ -139,28 +150,172 @@ def cmd_verify(args) -> int:
             folder = baseline_path(f, directory).parent
             output_dir(str(folder), "--baseline", label=f"--update-baseline: the baseline folder of `{f}`")
     outcomes = []
-    for f in files:
-        o = verify_file(f, settings, directory, rtol, per_signal, args.update_baseline)
-        print("\n".join(outcome_lines(o)), flush=True)
+    if args.jobs is not None and args.jobs < 1:
+        raise NetgenError(f"-j {args.jobs}: expected at least 1", None, "e.g. -j 4")
+    if args.jobs and args.jobs > 1 and len(files) > 1:
+        from netgen.regression.parallel import verify_files
+
+        done = verify_files(files, min(args.jobs, len(files)), settings=settings, directory=directory, rtol=rtol,
+                            per_signal=per_signal, update=args.update_baseline)
+    else:
+        done = (verify_file(f, settings, directory, rtol, per_signal, args.update_baseline) for f in files)
+    for o in done:  # in the order given, whether run here or on a pool
+        if not args.json:
+            print("\n".join(outcome_lines(o)), flush=True)
         outcomes.append(o)
-    print(total_line(outcomes))
+    report = sys.stderr if args.json else sys.stdout
+    if args.json:
+        from netgen.outputs.json_docs import dumps, verify_document
+
+        print(dumps(verify_document(outcomes, total_line(outcomes), exit_code(outcomes))))
+    else:
+        print(total_line(outcomes))
     if args.junit:
         from netgen.outputs.junit import junit_xml
         from netgen.outputs.files import write_atomic
 
         write_atomic(Path(args.junit), junit_xml(outcomes))
-        print(f"wrote {args.junit}")
+        print(f"wrote {args.junit}", file=report)
     if args.report:
         from netgen.outputs.files import write_atomic
         from netgen.outputs.html import html_report
 
         write_atomic(Path(args.report), html_report(outcomes, "netgen verify"))
-        print(f"wrote {args.report}")
+        print(f"wrote {args.report}", file=report)
     unused = [s for s in per_signal if not any(o.results and s in o.results.signals for o in outcomes)]
     if unused:
         print(f"netgen: error: --rtol names {', '.join(unused)}, which no design records", file=sys.stderr)
         return EXIT_INPUT
     return exit_code(outcomes)
+
+
+
+def _study_start(args, name: str):
+    """What `sweep` and `tolerance` share before their runs: output folders checked, the file
+    read once and checked, the executor."""
+    from netgen.language.elaborate import load_text, read_source
+    from netgen.outputs.files import make_dir, output_dir
+    from netgen.studies.executors import executor
+
+    out = output_dir(args.out, "--out") or Path(".")
+    output_dir(args.plot, "--plot")
+    if args.plot:
+        from netgen.outputs.plots import require
+
+        require()
+    settings = _settings(args.set)
+    text = read_source(args.file)
+    _notes(load_text(text, args.file, settings))
+    ex = executor(args.jobs, args.cluster)
+    make_dir(out)
+    progress = None
+    if sys.stderr.isatty() and not args.quiet and not args.json:
+        from netgen.outputs.study_text import StudyProgress
+
+        progress = StudyProgress(name)
+    return out, settings, text, ex, progress
+
+
+def _study_end(args, name: str, out: Path, outcome, files: dict, doc: dict, cols, body, stream: Path) -> int:
+    """Write the study's files (also after an interruption, with the runs that finished), print
+    the table or the JSON document, and say how far an interrupted study got."""
+    import json
+
+    from netgen.outputs.files import write_set
+    from netgen.outputs.study_text import rows_table
+
+    write_set(files)
+    stream.unlink(missing_ok=True)  # its rows are in the files now
+    if args.json:
+        print(json.dumps({**doc, "rows": body}, indent=1))
+    else:
+        print(rows_table(cols, body))
+        for path in files:
+            print(f"wrote {path}")
+    if outcome.failed and not args.json:
+        print(f"{outcome.failed} of {outcome.finished} runs failed: each has its error in the `error` column",
+              file=sys.stderr)
+    if outcome.interrupted:
+        print(f"netgen {name}: interrupted: {outcome.how_far()}; their rows are in {out / (name + '.csv')}",
+              file=sys.stderr)
+        return 130
+    return EXIT_OK
+
+
+def cmd_sweep(args) -> int:
+    from netgen.studies.runner import csv_text, jsonable, table
+    from netgen.studies.sweep import best_line, read_axes, run_sweep
+
+    out, settings, text, ex, progress = _study_start(args, "sweep")
+    try:
+        axes = read_axes(text, args.file, settings, args.vary, args.log or [])
+        stream = out / "sweep.partial.jsonl"
+        s = run_sweep(text, args.file, settings, axes, ex, tuple(args.best) if args.best else None, progress, stream)
+    finally:
+        ex.close()
+        if progress is not None:
+            progress.done()
+    cols, body = table(s.outcome, s.lead)
+    doc = jsonable(s.document())
+    files = {out / "sweep.csv": csv_text(cols, body), out / "sweep.json": json.dumps(doc, indent=1) + "\n"}
+    code = _study_end(args, "sweep", out, s.outcome, files, doc, cols, jsonable(body), stream)
+    if not args.json:
+        for note in s.notes:
+            print(f"note: {note}", file=sys.stderr)
+        if s.best is not None:
+            print(best_line(s))
+    if args.plot and body:
+        from netgen.outputs.study_plots import sweep_plots
+
+        n = len(sweep_plots(Path(args.plot), axes, cols, body, s.best))
+        print(f"wrote {n} plots to {args.plot}", file=sys.stderr if args.json else sys.stdout)
+    return code
+
+
+
+def cmd_tolerance(args) -> int:
+    from netgen.outputs.study_text import stats_table, yield_lines
+    from netgen.studies.runner import csv_text, jsonable, table
+    from netgen.studies.tolerance import run_tolerance
+
+    out, settings, text, ex, progress = _study_start(args, "tolerance")
+    stream = out / "tolerance.partial.jsonl"
+    try:
+        t = run_tolerance(text, args.file, settings, args.runs, args.seed, ex, progress, stream)
+    finally:
+        ex.close()
+        if progress is not None:
+            progress.done()
+    cols, body = table(t.outcome, t.lead)
+    doc = jsonable(t.document(cols))
+    files = {out / "tolerance.csv": csv_text(cols, body), out / "tolerance.json": json.dumps(doc, indent=1) + "\n"}
+    if args.json:
+        code = _study_end(args, "tolerance", out, t.outcome, files, doc, cols, jsonable(body), stream)
+    else:
+        from netgen.outputs.files import write_set
+
+        write_set(files)
+        stream.unlink(missing_ok=True)
+        print(f"{t.outcome.how_far()} (seed {t.seed})")
+        print("\n".join(yield_lines(doc["yield"])) or "no expectations: no yield")
+        if doc["stats"]:
+            print(stats_table(doc["stats"]))
+        for path in files:
+            print(f"wrote {path}")
+        code = EXIT_OK
+        if t.outcome.failed:
+            print(f"{t.outcome.failed} of {t.outcome.finished} runs failed: each has its error in the `error` column "
+                  "of tolerance.csv; a failed run counts as not meeting the expectations", file=sys.stderr)
+        if t.outcome.interrupted:
+            print(f"netgen tolerance: interrupted: {t.outcome.how_far()}; their rows are in {out / 'tolerance.csv'}",
+                  file=sys.stderr)
+            code = 130
+    if args.plot and body:
+        from netgen.outputs.study_plots import histograms
+
+        n = len(histograms(Path(args.plot), [c for c in cols if c not in ("run", "error")], body))
+        print(f"wrote {n} histograms to {args.plot}", file=sys.stderr if args.json else sys.stdout)
+    return code
 
 
 
@@ -241,6 +396,17 @@ def cmd_matrices(args) -> int:
     return EXIT_OK
 
 
+def _study_options(sp, name: str) -> None:
+    where = sp.add_mutually_exclusive_group()
+    where.add_argument("--jobs", type=int, metavar="N", help="run on N local processes (default: the number of cores)")
+    where.add_argument("--cluster", metavar="ADDRESS",
+                    help="run on a Dask scheduler (tcp://host:8786), or `local` for a cluster on this machine")
+    sp.add_argument("--out", metavar="DIR", help=f"write {name}.csv and {name}.json into DIR (default: here)")
+    sp.add_argument("--plot", metavar="DIR", help="write PNG plots into DIR (needs matplotlib)")
+    sp.add_argument("--json", action="store_true", help="print one JSON document instead of the table")
+    sp.add_argument("--quiet", action="store_true", help="no progress line")
+
+
 def build_parser() -> argparse.ArgumentParser:
     p = _Parser(prog="netgen", description="Coupled heat-and-electricity networks from .etn descriptions.")
     p.add_argument("--version", action="version", version=f"netgen {__version__}")
@@ -254,10 +420,12 @@ def build_parser() -> argparse.ArgumentParser:
         sp_.set_defaults(func=func)
         return sp_
 
-    add("check", cmd_check, "read and check a description; print what it holds")
+    c = add("check", cmd_check, "read and check a description; print what it holds")
+    c.add_argument("--json", action="store_true", help="print what it holds as one JSON document")
     r = add("run", cmd_run, "solve the description's analyses and print a summary")
     r.add_argument("--out", metavar="DIR", help="write transient.csv and summary.json into DIR")
     r.add_argument("--quiet", action="store_true", help="no progress line")
+    r.add_argument("--json", action="store_true", help="print the summary (as in summary.json) as one JSON document")
     r.add_argument("--plot", metavar="DIR", help="write a PNG and an SVG plot of each recorded signal into DIR (needs matplotlib)")
     r.add_argument("--report", metavar="OUT.html", help="write a self-contained HTML report (needs matplotlib)")
     v = sub.add_parser("verify", help="run designs, check expectations and audits, compare with baselines",
@@ -274,8 +442,23 @@ def build_parser() -> argparse.ArgumentParser:
     v.add_argument("--set", action="append", metavar="NAME=VALUE",
                    help="override a `let` parameter in every design, e.g. --set I_drive=1.5A (repeatable)")
     v.add_argument("--junit", metavar="OUT.xml", help="write a JUnit XML test report")
+    v.add_argument("-j", "--jobs", type=int, metavar="N", help="verify N designs at a time on local processes "
+                   "(default 1); the output keeps the order of the designs")
+    v.add_argument("--json", action="store_true", help="print one JSON document instead of the lines")
     v.add_argument("--report", metavar="OUT.html", help="write a self-contained HTML report (needs matplotlib)")
     v.set_defaults(func=cmd_verify)
+    sw = add("sweep", cmd_sweep, "run a design at every point of a grid of parameter values")
+    sw.add_argument("--vary", action="append", required=True, metavar="NAME=FROM..TO[:COUNT]",
+                    help="a parameter and its range, e.g. --vary I_drive=0.5A..3A:11 (repeatable: a grid)")
+    sw.add_argument("--log", action="append", metavar="NAME", help="space the values of NAME evenly on a log scale")
+    sw.add_argument("--best", nargs=2, metavar=("max|min", "COLUMN"),
+                    help="the point where COLUMN is largest or smallest, e.g. --best max 'COP(tec)'")
+    _study_options(sw, "sweep")
+    tl = add("tolerance", cmd_tolerance, "run a design many times with its `spread` parameters drawn")
+    tl.add_argument("--runs", type=int, required=True, metavar="N", help="how many runs")
+    tl.add_argument("--seed", type=int, default=0, metavar="S",
+                    help="seed of the draws (default 0): run k draws the same values whatever the executor")
+    _study_options(tl, "tolerance")
     e = add("export", cmd_export, "write the SPICE netlist of a description")
     e.add_argument("-o", "--output", metavar="OUT.cir", help="file to write (default: standard output)")
     x = add("crosscheck", cmd_crosscheck,

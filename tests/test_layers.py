@@ -60,7 +60,8 @@ def test_no_module_imports_another_in_a_cycle():
     assert not cycles, "import cycles: " + "; ".join(" -> ".join(c + c[:1]) for c in cycles[:10])
 
 
-LAYERS = ["model", "elements", "language", "solve", "checks", "analyses", "regression", "outputs", "spice", "cli"]
+LAYERS = ["model", "elements", "language", "solve", "checks", "analyses", "regression", "studies", "outputs", "spice",
+          "cli"]
 
 
 def _layer(module: str) -> int:

@@ -51,6 +51,39 @@ class Results:
     def __getitem__(self, signal: str) -> np.ndarray:
         return self.waveforms[signal]
 
+    def __repr__(self) -> str:
+        parts = []
+        if self.steady is not None:
+            parts.append("steady")
+        if self.time is not None:
+            parts.append(f"transient of {len(self.time)} points to {float(self.time[-1]):g} s")
+        if self.modes is not None:
+            parts.append(f"{len(self.modes)} modes")
+        passed = sum(c.passed for c in self.checks)
+        checks = f", {passed} of {len(self.checks)} checks pass" if self.checks else ""
+        n = len(self.signals)
+        return f"<Results {self.design.file}: {', '.join(parts) or 'nothing solved'}, {n} signal{'s' * (n != 1)}{checks}>"
+
+    def to_frame(self):
+        """The recorded signals as a table: over the transient (a `time` column, then one column
+        per signal) if there is one, else the steady state as one row. A pandas DataFrame when
+        pandas is installed, else a dict of numpy arrays by column.
+
+        Example:
+            >>> res = netgen.load("examples/detector_cooler.etn").run()
+            >>> res.to_frame()["T(die)"][-1]     # the die's temperature at the end, in K
+        """
+        if self.time is not None:
+            data = {"time": np.asarray(self.time, dtype=float)}
+            data.update({s: np.asarray(self.waveforms[s], dtype=float) for s in self.signals if s in self.waveforms})
+        else:
+            data = {s: np.array([float(v)]) for s, v in (self.steady or {}).items()}
+        try:
+            import pandas
+        except ImportError:
+            return data
+        return pandas.DataFrame(data)
+
     @property
     def passed(self) -> bool:
         return all(c.passed for c in self.checks)

@@ -13,7 +13,7 @@ from netgen.elements import KINDS, READERS, Fixed
 from netgen.elements.controller import controlled_dim, controller_signal
 from netgen.model.design import (
     ELECTRICAL, THERMAL, Audit, BaselineTolerance, Design, Expectation, Humidity, Loc, Material, Modes, Node, Signal,
-    Steady, Transient, signal_unit,
+    Spread, Steady, Transient, signal_unit,
 )
 from netgen.model.errors import NetgenError, NetgenErrors
 from netgen.model.expr import Binary, Const, Func, SignalRef, Wave
@@ -28,6 +28,7 @@ from netgen.language.source import Unreadable, check_breaks, decoded, read_file,
 from netgen.solve.topology import check_design  # the structural checks run on the finished model
 
 MAX_ERRORS = 20
+SPREAD_LAWS = ("normal", "uniform")
 MAX_POINTS = 1_000_000  # points a transient may report (until / step); see also solve.transient.MAX_STEPS
 NOT_YET: dict[str, str] = {}  # statements of LANGUAGE.md not implemented yet, with a hint
 # Statements that make sense only once per design, not inside a reusable part.
@@ -338,7 +339,7 @@ class Elaborator(PartsMixin):
         self.design.title = str(t.children[0])[1:-1]
 
     def st_let(self, t):
-        name_tok, value = t.children
+        name_tok, value, spread = (list(t.children) + [None])[:3]
         name = str(name_tok)
         in_part = bool(self.prefix)
         if (name in self.local_names) if in_part else (name in self.params):
@@ -364,6 +365,24 @@ class Elaborator(PartsMixin):
         self.param_locs[name] = self.loc(name_tok)
         if in_part:
             self.local_names.add(name)
+        if spread is not None:
+            self.spread(name, typed, spread)
+
+    def spread(self, name: str, typed: Typed, t) -> None:
+        """`spread normal 2 %` or `spread uniform 5 %` after a top-level constant `let`."""
+        law_tok, amount = t.children
+        hint = f"e.g. let {name} = ... spread normal 2 %  (σ), or spread uniform 5 %  (half-width)"
+        if self.prefix:
+            raise self.err(t, "`spread` is not allowed inside a part", "give the spread to a `let` of the design")
+        if str(law_tok) not in SPREAD_LAWS:
+            raise self.err(law_tok, f"unknown spread `{law_tok}`: expected normal or uniform", hint)
+        if not typed.constant:
+            raise self.err(t, f"`{name}` varies, so it cannot have a spread", "give a spread to a constant parameter")
+        share = self.const(amount, U.NONE, "a spread (a share such as 2 %)", positive=True)
+        if str(law_tok) == "uniform" and share >= 1:
+            raise self.err(amount, f"a uniform spread of {share:.4g} (100 % or more) would draw values of zero "
+                           "or of the other sign", hint)
+        self.design.spreads[name] = Spread(str(law_tok), share, self.loc(t))
 
     def st_mass(self, t):
         name_tok, cap, attrs = t.children

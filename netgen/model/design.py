@@ -143,6 +143,16 @@ class BaselineTolerance:
 
 
 @dataclass
+class Spread:
+    """`let NAME = VALUE spread normal|uniform SHARE`: how a tolerance study draws the value, as a
+    share of the nominal value (σ for normal, the half-width for uniform)."""
+
+    law: str
+    share: float
+    loc: Loc
+
+
+@dataclass
 class Design:
     """Everything a description says, in SI. Every later stage reads only this."""
 
@@ -160,6 +170,13 @@ class Design:
     baseline_tolerances: list[BaselineTolerance] = field(default_factory=list)
     celsius: bool = False  # the text wrote temperatures in degC: show °C beside K
     humidity: Humidity | None = None
+    spreads: dict[str, Spread] = field(default_factory=dict)  # by parameter name, for tolerance studies
+
+    def __repr__(self) -> str:
+        n, e = len(self.nodes), len(self.elements)
+        analyses = "+".join(type(a).__name__.lower() for a in self.analyses) or "no analysis"
+        title = f" {self.title!r}" if self.title else ""
+        return f"<Design {self.file}{title}: {n} node{'s' * (n != 1)}, {e} element{'s' * (e != 1)}, {analyses}>"
 
     def element(self, name: str) -> Element | None:
         for e in self.elements:

@@ -28,7 +28,7 @@ ATTRIBUTES = ("start", "heats", "tempco", "closed", "on", "off", "pins", "sides"
               "density", "specific", "capacity", "proportional", "integral", "derivative", "output", "tracking",
               "filter", "saturation", "emission", "series", "at", "opens", "closes")
 CLAUSES = ("until", "within", "between", "and", "at", "ref", "material", "leg", "imax", "vmax", "dtmax",
-           "by", "with", "to", "from", "points", "window", "lasts", "of", "when")
+           "by", "with", "to", "from", "points", "window", "lasts", "of", "when", "spread", "normal", "uniform")
 AGGREGATES = ("max", "min", "final", "mean", "steady")
 AUDITS = ("energy", "entropy")
 FUNCTIONS = ("sqrt", "abs", "min", "max", "exp", "log", "sin", "cos", "step", "ramp", "pulse", "sine", "table")
