@@ -61,14 +61,24 @@ def _start_temperatures(d: Design) -> dict[str, float]:
 _unit = signal_unit
 
 
-def fmt(signal: str, v: float, celsius: bool) -> str:
+def unit_in(d, signal: str) -> str:
+    """A signal's unit in design `d`: a controller's `U(...)` takes its driven source's."""
+    unit = _unit(signal)
+    if unit or kind_of(signal) != "U":
+        return unit
+    name = signal[signal.index("(") + 1: -1].strip()
+    units = {e.name: getattr(e, "unit", "") for e in d.elements}
+    return units.get(name) or units.get(name.rsplit(".", 1)[0], "")
+
+
+def fmt(signal: str, v: float, celsius: bool, unit: str | None = None) -> str:
     if not math.isfinite(v):
         return str(v)
     if abs(v) < 1e-20:
         v = 0.0  # round-off around zero (an open circuit's current) reads as zero
     if celsius and kind_of(signal) == "T":
         return f"{v:.4f} K ({v - ZERO_C:.3f} °C)"
-    return f"{v:.6g} {_unit(signal)}"
+    return f"{v:.6g} {_unit(signal) if unit is None else unit}".rstrip()
 
 
 def _value(v: float, unit: str, celsius: bool) -> str:
@@ -86,7 +96,7 @@ def print_results(res: Results, out=None) -> None:
         print("\nsteady state", file=out)
         width = max(len(s) for s in res.steady) if res.steady else 6
         for s, v in res.steady.items():
-            print(f"  {s:<{width}}  {fmt(s, v, d.celsius)}", file=out)
+            print(f"  {s:<{width}}  {fmt(s, v, d.celsius, unit_in(d, s))}", file=out)
     if res.time is not None:
         st = res.stats
         print(f"\ntransient to {res.time[-1]:g} s ({st.get('steps', 0)} steps, {st.get('rejected', 0)} rejected)", file=out)
@@ -95,7 +105,7 @@ def print_results(res: Results, out=None) -> None:
         print(f"  {'signal':<{width}}  {'min':>24}  {'max':>24}  {'final':>24}", file=out)
         for s in names:
             w = res.waveforms[s]
-            cells = [fmt(s, float(f(w)), d.celsius) for f in (np.min, np.max, lambda a: a[-1])]
+            cells = [fmt(s, float(f(w)), d.celsius, unit_in(d, s)) for f in (np.min, np.max, lambda a: a[-1])]
             print(f"  {s:<{width}}  {cells[0]:>24}  {cells[1]:>24}  {cells[2]:>24}", file=out)
     if res.figures:
         print_figures(res, out)
