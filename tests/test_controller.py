@@ -66,6 +66,15 @@ def test_a_pi_controller_holds_its_sensor_exactly_at_the_setpoint():
     assert r.waveforms["U(hold.integral)"][0] == 0.0  # it starts empty
 
 
+def test_the_output_is_printed_in_the_source_unit(capsys):
+    from netgen.outputs.text import print_results
+    print_results(netgen.load(COOLER).run())
+    out = capsys.readouterr().out
+    lines = [ln.split() for ln in out.splitlines() if ln.strip().startswith("U(hold) ")]
+    assert lines[0] == ["U(hold)", "1.5743", "A"]  # the steady state
+    assert lines[1][-1] == "A" and lines[1][-2] == "1.5743"  # the transient's final value
+
+
 def test_the_closed_loop_poles_are_the_textbook_ones():
     """Plant C·T' = u − G·(T − T0), u = kp·e + ki·∫e: C·s² + (G − kp)·s − ki = 0 (e = T − r)."""
     text = HEATER.replace("transient until 800 s step 1 s tolerance 1e-6", "modes").replace(

@@ -144,6 +144,13 @@ response V(b) to vin from 1 Hz to 100 kHz points 26
 """
 
 
+def test_responses_to_a_second_input_are_named_as_not_compared(ngspice):
+    text = LOWPASS + "fixed far 290 K\nlink wire m far 0.1 W/K\nresponse T(m) to far from 0.0001 Hz to 1 Hz points 11\n"
+    rep = crosscheck(netgen.load(text), ngspice)
+    assert rep.passed and len(rep.response) == 1
+    assert any("`far` are not compared" in n for n in rep.notes)
+
+
 @pytest.mark.parametrize("text", [LOWPASS, LOOP, ELECTRIC], ids=["low-pass", "loop", "electric-rc"])
 def test_ngspice_ac_agrees(ngspice, text):
     """ngspice's .ac on the exported netlist against our response, at ngspice's frequencies."""

@@ -64,6 +64,16 @@ def _start_temperatures(d: Design) -> dict[str, float]:
 _unit = signal_unit
 
 
+def unit_in(d, signal: str) -> str:
+    """A signal's unit in design `d`: a controller's `U(...)` takes its driven source's."""
+    unit = _unit(signal)
+    if unit or kind_of(signal) != "U":
+        return unit
+    name = signal[signal.index("(") + 1: -1].strip()
+    units = {e.name: getattr(e, "unit", "") for e in d.elements}
+    return units.get(name) or units.get(name.rsplit(".", 1)[0], "")
+
+
 ROUND_OFF = 1e-9  # a value this small beside the largest of its unit is round-off around zero
 
 
@@ -77,7 +87,7 @@ def scales(values: dict[str, float]) -> dict[str, float]:
     return out
 
 
-def fmt(signal: str, v: float, celsius: bool, scale: float = 0.0) -> str:
+def fmt(signal: str, v: float, celsius: bool, scale: float = 0.0, unit: str | None = None) -> str:
     """A value with its unit; one below ROUND_OFF of `scale` (the largest value of its unit in
     the same table) prints as 0: `-1.1e-14 V` beside 5 V is round-off, not a voltage."""
     if not math.isfinite(v):
@@ -86,7 +96,7 @@ def fmt(signal: str, v: float, celsius: bool, scale: float = 0.0) -> str:
         v = 0.0  # round-off around zero (an open circuit's current) reads as zero
     if celsius and kind_of(signal) == "T":
         return f"{v:.4f} K ({v - ZERO_C:.3f} °C)"
-    return f"{v:.6g} {_unit(signal)}"
+    return f"{v:.6g} {_unit(signal) if unit is None else unit}".rstrip()
 
 
 def _value(v: float, unit: str, celsius: bool) -> str:
@@ -105,7 +115,7 @@ def print_results(res: Results, out=None) -> None:
         width = max(len(s) for s in res.steady) if res.steady else 6
         big = scales(res.steady)
         for s, v in res.steady.items():
-            print(f"  {s:<{width}}  {fmt(s, v, d.celsius, big.get(_unit(s), 0.0))}", file=out)
+            print(f"  {s:<{width}}  {fmt(s, v, d.celsius, big.get(_unit(s), 0.0), unit_in(d, s))}", file=out)
     if res.time is not None:
         st = res.stats
         print(f"\ntransient to {res.time[-1]:g} s ({st.get('steps', 0)} steps, {st.get('rejected', 0)} rejected)", file=out)
@@ -115,7 +125,8 @@ def print_results(res: Results, out=None) -> None:
         big = scales({s: float(np.max(np.abs(res.waveforms[s]))) for s in names})
         for s in names:
             w = res.waveforms[s]
-            cells = [fmt(s, float(f(w)), d.celsius, big.get(_unit(s), 0.0)) for f in (np.min, np.max, lambda a: a[-1])]
+            cells = [fmt(s, float(f(w)), d.celsius, big.get(_unit(s), 0.0), unit_in(d, s))
+                     for f in (np.min, np.max, lambda a: a[-1])]
             print(f"  {s:<{width}}  {cells[0]:>24}  {cells[1]:>24}  {cells[2]:>24}", file=out)
         for ev in res.events:
             print(f"  event: switch `{ev['element']}` {ev['what']} at t = {ev['time']:.9g} s", file=out)

@@ -11,13 +11,13 @@ import numpy as np
 from netgen.solve.assembly import System, assemble
 from netgen.analyses import run
 from netgen.checks.results import Results
-from netgen.model.design import Design, Modes
+from netgen.model.design import Design, Modes, Response
 from netgen.model.signals import kind_of, parse as parse_signal
 from netgen.solve.events import timeline
 from netgen.solve.signals import SignalEval, signal_texts
 from netgen.solve.steady import solve_dc
 from netgen.spice.resample import Onto, cuts, near, spread
-from netgen.spice.ac import compare as compare_ac
+from netgen.spice.ac import compare as compare_ac, excited
 from netgen.spice.approximations import inputs, jumps, notes
 from netgen.spice.crosscheck_report import Report, Row, Tolerances
 from netgen.spice.netlist import Names, netlist
@@ -92,6 +92,10 @@ def compare(ours: Results, nm: Names, plots: list[Plot], tol: Tolerances,
         rep.response = compare_ac(d, nm, ac, solve_dc(sys, 0.0))
     _compared_all(rep, ours)
     rep.notes = notes(d, nm, rep)
+    others = sorted({a.input for a in d.analyses if isinstance(a, Response)} - {a.input for a in excited(d)})
+    if others:
+        rep.notes.append("responses to " + ", ".join(f"`{x}`" for x in others) + " are not compared: the netlist "
+                         "excites one input (the first response's)")
     return rep
 
 
