@@ -326,7 +326,20 @@ def cmd_export(args) -> int:
 
     out = output_file(args.output, "-o")
     d = _load(args)
-    text = write_netlist(d)
+    if args.subckt is None and (args.pins or args.without or args.temperature):
+        raise NetgenError("--pins, --without and --temperature belong to a part: give --subckt NAME too", None,
+                          "e.g. netgen export cooler.etn --subckt cooler --pins p,gnd,die")
+    if args.reduce is not None:
+        from netgen.spice.reduced_export import export_reduced
+
+        text = export_reduced(d, args.reduce, args.subckt, _list(args.pins), _list(args.without),
+                              args.temperature == "kelvin")
+    elif args.subckt is not None:
+        from netgen.spice.part import part
+
+        text = part(d, args.subckt, _list(args.pins), _list(args.without), args.temperature == "kelvin").text
+    else:
+        text = write_netlist(d)
     if out is not None:
         from netgen.outputs.files import write_atomic
 
@@ -337,6 +350,10 @@ def cmd_export(args) -> int:
     return EXIT_OK
 
 
+def _list(text: str | None) -> list[str]:
+    return [x.strip() for x in text.split(",")] if text else []
+
+
 def cmd_crosscheck(args) -> int:
     from netgen.outputs.files import output_dir
     from netgen.spice.crosscheck import Tolerances, crosscheck
@@ -345,11 +362,12 @@ def cmd_crosscheck(args) -> int:
     keep = output_dir(args.keep, "--keep")
     d = _load(args)
     try:
-        rep = crosscheck(d, args.simulator, Tolerances.from_rtol(args.rtol), keep, timeout=args.timeout)
+        rep = crosscheck(d, args.simulator, Tolerances.from_rtol(args.rtol), keep, timeout=args.timeout,
+                         reduce=args.reduce)
     except SimulatorError as e:  # missing or failed: its own words, and a code of its own
         print(f"netgen crosscheck: {e.render()}", file=sys.stderr)
         return EXIT_SIMULATOR
-    print(rep.table())
+    print(rep.table(args.all))
     if args.keep:
         print(f"kept the netlist, the raw file and the simulator's output in {args.keep}")
     return EXIT_OK if rep.passed else EXIT_FAILED
@@ -383,6 +401,16 @@ def _positive(text: str) -> float:
         raise argparse.ArgumentTypeError(f"{text!r} is not a number") from None
     if not v > 0:
         raise argparse.ArgumentTypeError(f"{text!r} must be greater than zero")
+    return v
+
+
+def _count(text: str) -> int:
+    try:
+        v = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
+    if v < 1:
+        raise argparse.ArgumentTypeError(f"{text!r} must be 1 or more")
     return v
 
 
@@ -461,12 +489,26 @@ def build_parser() -> argparse.ArgumentParser:
     _study_options(tl, "tolerance")
     e = add("export", cmd_export, "write the SPICE netlist of a description")
     e.add_argument("-o", "--output", metavar="OUT.cir", help="file to write (default: standard output)")
+    e.add_argument("--subckt", metavar="NAME",
+                   help="write a part for your own deck: one .subckt NAME with the pins given, for .include")
+    e.add_argument("--pins", metavar="NODE[,NODE...]",
+                   help="the part's pins in order, electrical or thermal nodes (with --subckt)")
+    e.add_argument("--without", metavar="ELEMENT[,ELEMENT...]",
+                   help="leave these elements out of the part, e.g. the design's own drive (with --subckt)")
+    e.add_argument("--temperature", choices=("celsius", "kelvin"), default=None,
+                   help="a thermal node's voltage in the part: degrees Celsius (default) or kelvin")
+    e.add_argument("--reduce", metavar="N", type=_count, default=None,
+                   help="replace the linear thermal network by a reduced model of at most N states (PACT)")
     x = add("crosscheck", cmd_crosscheck,
             "run the exported netlist in an outside circuit simulator and compare it with netgen's results")
     x.add_argument("--simulator", metavar="CMD", default="ngspice",
                    help="the simulator's executable, run as CMD -b -r OUT.raw NETLIST (default: ngspice)")
     x.add_argument("--rtol", metavar="R", type=_positive, default=None,
                    help="relative tolerance of the comparison (default 1e-3); every tolerance scales with it")
+    x.add_argument("--reduce", metavar="N", type=_count, default=None,
+                   help="run the netlist with its linear thermal network reduced to at most N states, "
+                   "against netgen's full solution")
+    x.add_argument("--all", action="store_true", help="print every row (default: the worst rows and a count of the rest)")
     x.add_argument("--keep", metavar="DIR", help="keep the netlist, the raw file and the simulator's output in DIR")
     x.add_argument("--timeout", metavar="SECONDS", type=_positive, default=600.0,
                    help="end the simulator (and everything it started) after SECONDS (default: 600)")

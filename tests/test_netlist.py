@@ -182,6 +182,8 @@ def test_names_map_back(all_kinds):
     # Each element row names a kind and one of our elements (or masses).
     ours = {e.name for e in d.elements} | {n.name for n in d.nodes.values() if n.capacity}
     for spice in cards:
+        if spice == "vclock_start":  # the netlist's own start clock, no element of ours
+            continue
         assert rows[spice].split(":")[0].split()[1] in ours
     # Signals come back by name: node values and branch currents with their signs.
     sig = signal_map(text)

@@ -23,6 +23,7 @@ from netgen.spice.crosscheck_report import Report, Row, Tolerances
 from netgen.spice.netlist import Names, netlist
 from netgen.spice.starts import starts_of
 from netgen.spice.raw import Plot, find_plot
+from netgen.spice.reduce import OPTIONS as REDUCED_OPTIONS, prepare
 from netgen.spice.simulator import DEFAULT_SIMULATOR, TIMEOUT, SimulatorError, simulate
 
 # Around a jump the netlist's edge differs from the ideal jump; in a part of the circuit about
@@ -32,24 +33,47 @@ WINDOW = 10.0
 # The simulator's transient must cover the run: to its end (to rounding), and from no later than
 # this share of it (under `uic` its first point is after t = 0: about a hundredth of its step).
 SPAN_SLACK, LATE_START = 1e-6, 0.05
+# Our transient is solved for the comparison at this local tolerance (or the design's own, if
+# tighter): at the default 1e-4, relative to temperatures near 300 K, our own error could reach
+# the comparison's few millikelvin after a fast jump (14 mK on a 20 x 20 plate), and a mismatch
+# would then be ours, not the netlist's.
+COMPARE_TOLERANCE = 1e-5
+# A reduced network (`--reduce N`) is held to this over the transient, K (the steady state is exact).
+REDUCED_KELVIN = 0.1
 
 
 # ---- running both ------------------------------------------------------------------------------
 def crosscheck(design: Design, simulator: str = DEFAULT_SIMULATOR, tol: Tolerances | None = None,
                keep: Path | None = None, edit: Callable[[str], str] | None = None,
-               env: dict[str, str] | None = None, timeout: float = TIMEOUT) -> Report:
+               env: dict[str, str] | None = None, timeout: float = TIMEOUT, reduce: int | None = None) -> Report:
     """Export `design`, run the simulator on it, solve it ourselves and compare. `edit` may
     rewrite the netlist text before it is run (to prove that a wrong netlist is caught);
     `keep` is a directory for the netlist, the raw file and the simulator's output; the
     simulator is ended after `timeout` seconds."""
-    ours = run(for_comparison(design))
-    starts = starts_of(design)
-    starts.events = ours.events  # a switch acting on a condition changes at our times there
-    text, nm = netlist(design, starts)
+    tol = tol or Tolerances()
+    comparison = for_comparison(design)
+    if reduce is None:
+        ours = run(comparison)
+        starts = starts_of(design)
+        starts.events = ours.events  # a switch acting on a condition changes at our times there
+        text, nm = netlist(design, starts)
+    else:  # the reduced netlist against our full solution, on the nodes both have
+        reduced, r, starts = prepare(design, reduce)
+        text, nm = netlist(reduced, starts, clock=False, options=REDUCED_OPTIONS)
+        comparison = dataclasses.replace(comparison, records=[s for s in comparison.records if s.text in nm.signals])
+        tol = dataclasses.replace(tol, kelvin=max(tol.kelvin, REDUCED_KELVIN), flow_kelvin=max(tol.flow_kelvin, REDUCED_KELVIN))
+        ours = run(comparison)
     if edit is not None:
         text = edit(text)
     theirs = simulate(text, simulator, keep, env, timeout)
-    return compare(ours, nm, theirs.plots, tol or Tolerances(), theirs.command)
+    rep = compare(ours, nm, theirs.plots, tol, theirs.command)
+    if reduce is not None:
+        rep.notes.append(f"reduced: the netlist's linear thermal network is a model of {r.states} states "
+                         f"({len(r.ports)} kept nodes, {r.states - len(r.ports)} modes) in place of {len(r.internal)} "
+                         f"inner nodes, compared with netgen's full solution on the kept nodes; temperatures "
+                         f"are held to {REDUCED_KELVIN} K over the transient (heat flows to that times the "
+                         "largest conductance at a node), the steady state as tightly as ever.")
+    return rep
 
 
 def for_comparison(d: Design) -> Design:
@@ -59,8 +83,10 @@ def for_comparison(d: Design) -> Design:
     sys = assemble(d)
     records = [parse_signal(t) for t in texts]
     records += [parse_signal(n) for n in sys.names if n not in texts]
-    return dataclasses.replace(d, records=records, expectations=[], audits=[],
-                               analyses=[a for a in d.analyses if not isinstance(a, Modes)])
+    analyses = [a for a in d.analyses if not isinstance(a, Modes)]
+    analyses = [dataclasses.replace(a, tolerance=min(a.tolerance or COMPARE_TOLERANCE, COMPARE_TOLERANCE))
+                if a is d.transient else a for a in analyses]
+    return dataclasses.replace(d, records=records, expectations=[], audits=[], analyses=analyses)
 
 
 def compare(ours: Results, nm: Names, plots: list[Plot], tol: Tolerances,

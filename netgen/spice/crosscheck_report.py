@@ -100,8 +100,8 @@ class Report:
     def failed(self) -> list[str]:
         return list(dict.fromkeys(r.signal for r in self.rows if not r.passed))
 
-    def table(self) -> str:
-        return render(self)
+    def table(self, everything: bool = False) -> str:
+        return render(self, everything)
 
 
 # ---- the printed table ---------------------------------------------------------------------
@@ -134,25 +134,45 @@ def _grid(head: list[str], body: list[list[str]]) -> list[str]:
     return [line(head)] + [line(b) for b in body]
 
 
-def render(rep: Report) -> str:
-    """The whole report as text: steady rows, transient rows, notes, and the verdict."""
+SHOWN = 20  # rows of a table printed unless every row is asked for (`--all`)
+
+
+def _worst(rows: list[Row], everything: bool) -> tuple[list[Row], str | None]:
+    """All rows in their order when few or when asked; else the SHOWN worst (by |dev| over its
+    tolerance, failures and missing values first) and a line that counts the rest."""
+    if everything or len(rows) <= SHOWN:
+        return rows, None
+    score = lambda r: (bool(r.missing) or not r.passed, r.dev / r.tol if r.tol > 0 else math.inf)
+    shown = sorted(rows, key=score, reverse=True)[:SHOWN]
+    rest = len(rows) - SHOWN
+    bad = sum(1 for r in rows if r not in shown and (r.missing or not r.passed))
+    what = f"{bad} of them failed" if bad else "all within tolerance"
+    return shown, f"  ... the {SHOWN} worst of {len(rows)} rows shown; {rest} more, {what} (--all prints every row)"
+
+
+def render(rep: Report, everything: bool = False) -> str:
+    """The whole report as text: steady rows, transient rows, notes, and the verdict. With
+    many signals, the worst rows of each table and a count of the rest (`everything`: all)."""
     out = [f"crosscheck {rep.file}: netgen against {' '.join(rep.command)}"]
     if rep.steady:
         out += ["", "steady state (.op)"]
         body = []
-        for r in rep.steady:
+        steady, more_steady = _worst(rep.steady, everything)
+        for r in steady:
             u = _unit(r.signal)
             body.append([r.signal, r.source, f"{r.ours:.9g} {u}" if not r.missing else "-",
                          f"{r.theirs:.9g} {u}" if not r.missing else "-",
                          quantity(r.dev, u) if not r.missing else "-", _rel(r),
                          quantity(r.tol, u) if not r.missing else "-", r.status])
         out += _grid(["signal", "simulator", "netgen", "simulator value", "|dev|", "rel", "tolerance", "result"], body)
+        out += [more_steady] if more_steady else []
     if rep.transient:
         a, b = rep.span or (math.nan, math.nan)
         out += ["", f"transient: {rep.points[0]} of our points in {a:.6g} .. {b:.6g} s, "
                     f"{rep.points[1]} simulator points interpolated onto them"]
         body = []
-        for r in rep.transient:
+        transient, more = _worst(rep.transient, everything)
+        for r in transient:
             u = _unit(r.signal)
             if r.missing:
                 body.append([r.signal, r.source, "-", "-", "-", "-", "-", r.status])
@@ -161,6 +181,7 @@ def render(rep: Report) -> str:
                          "-" if r.at is None else f"{r.at:.6g} s", quantity(r.tol, u),
                          "-" if r.near is None else quantity(r.near, u), r.status])
         out += _grid(["signal", "simulator", "worst |dev|", "rel", "at", "tolerance", "excused", "result"], body)
+        out += [more] if more else []
     if rep.response:
         out += ["", "frequency response (.ac): the worst |difference| of the complex ratio over the sweep"]
         body = [[r.signal, r.source, "-" if r.missing else f"{r.dev:.3g}", _rel(r),

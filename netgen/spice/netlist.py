@@ -17,6 +17,10 @@ EDGE = 1e-3  # a jump becomes a linear edge this many output steps wide
 SAMPLES = 1000  # evenly spaced points of a sampled PWL over the run, besides its corners
 MAX_PRODUCT = 8  # integer powers up to this are written as products (ngspice's `^` takes |base|)
 # Node values are ~300 K: reltol 1e-6 is 0.3 mK there, vntol 1 uK / 1 uV for values near zero.
+# Under `uic` ngspice takes its first step (about TSTEP/100) without its error check; a source
+# with a corner this share of the run after the start makes that first step a tenth of it at
+# most, and from there the step grows under error control (at most doubling each step).
+FIRST_STEP = 1e-8
 OPTIONS = ".options reltol=1e-9 abstol=1e-12 vntol=1e-9 chgtol=1e-14 method=gear"
 
 
@@ -112,9 +116,13 @@ def _power(base: str, b: Expr, var) -> str:
 class _Writer:
     """Collects element lines, the name table and the header notes while walking the design."""
 
-    def __init__(self, d: Design):
+    def __init__(self, d: Design, nm: Names | None = None, offset: float = 0.0):
         self.d = d
-        self.names = names(d)
+        self.names = names(d) if nm is None else nm
+        # Thermal node voltage = temperature - offset (0: kelvin; 273.15: degrees Celsius, part.py).
+        self.offset = offset
+        self.thermal = {self.names.nodes[n.name] for n in d.nodes.values() if n.domain == THERMAL}
+        self.mass_ref: dict[str, tuple[str, float]] = {}  # mass → (the node its capacitor returns to, its voltage)
         tr = d.transient
         self.until = tr.until if tr else self._horizon()
         self.step = (tr.step if tr and tr.step else self.until / 500)
@@ -141,8 +149,13 @@ class _Writer:
         return self.names.nodes[name]
 
     def v(self, spice_node: str) -> str:
-        """A netlist node's voltage in a B-source expression (node 0 is 0)."""
-        return "0" if spice_node == "0" else f"V({spice_node})"
+        """A netlist node's voltage in a B-source expression (node 0 is 0); a thermal node's as
+        its absolute temperature, K."""
+        if spice_node == "0":
+            return "0"
+        if self.offset and spice_node in self.thermal:
+            return f"(V({spice_node})+{num(self.offset)})"
+        return f"V({spice_node})"
 
     def expr(self, e: Expr, values: dict) -> str:
         """An element's equation as B-source text: numbers in `values` are folded into the
@@ -171,6 +184,8 @@ class _Writer:
     def source(self, kind: str, tag: str, stem: str, np_: str, nn: str, w: Wave) -> str:
         """Write a source (kind "V" or "I") of wave `w`: independent, or a B source for an
         expression of time with no shapes in it. Returns its name."""
+        if kind == "V" and self.offset and np_ in self.thermal:
+            w = shifted(w, self.offset)  # a reservoir's temperature, K → the node's voltage
         e = w.expr
         if not w.constant and not any(isinstance(x, Shape) for x in e.walk()):
             name = f"b{tag or kind.lower()}_{stem}"
@@ -260,7 +275,8 @@ class _Writer:
         for n in d.nodes.values():
             if n.capacity is not None:
                 name = "cmass_" + nm.nodes[n.name][2:]
-                self.add(name, nm.nodes[n.name], 0, num(n.capacity), ic=(n.name,))
+                ref = self.mass_ref.get(n.name, ("0", 0.0))[0]
+                self.add(name, nm.nodes[n.name], ref, num(n.capacity), ic=(n.name,))
                 self.row(name, f"mass {n.name}: heat capacity, J/K")
         for e in d.elements:
             e.netlist(self, nm.stems[e.name])
@@ -269,7 +285,8 @@ class _Writer:
     def node_values(self, state: dict[str, float]) -> dict[str, float]:
         """Every netlist node's value in a state of our unknowns by name, internal nodes included."""
         value = lambda name: float(state.get(name, 0.0))  # a ground is absent: 0
-        out = {self.node(n): value(_signal(self.d, n)) for n in self.d.nodes if n not in self.d.grounds}
+        out = {self.node(n): value(_signal(self.d, n)) - (self.offset if self.node(n) in self.thermal else 0.0)
+               for n in self.d.nodes if n not in self.d.grounds}
         for node, (_, fn) in self.internal.items():
             out[node] = float(fn(value))
         return out
@@ -278,12 +295,30 @@ class _Writer:
         """IC= on every capacitor, mass and inductor, from the transient's initial state."""
         def value(name):
             if name in self.d.nodes:
-                return float(state.get(_signal(self.d, name), 0.0))
+                off = self.offset if self.d.nodes[name].domain == THERMAL else 0.0
+                off += self.mass_ref.get(name, ("0", 0.0))[1]
+                return float(state.get(_signal(self.d, name), 0.0)) - off
             e = self.elements[name]
             return float(state[f"{e.branch}({name})"])
         for i, names_ in self.ics:
             v = value(names_[0]) - value(names_[1]) if len(names_) == 2 else value(names_[0])
             self.lines[i] += f" IC={num(v)}"
+
+
+def shifted(w: Wave, k: float) -> Wave:
+    """The wave less `k`: shapes keep their form (a step stays a step), other expressions
+    get `- k`."""
+    e = w.expr
+    if isinstance(e, Const):
+        return Wave(Const(e.v - k), w.unit)
+    if isinstance(e, Shape):
+        a = list(e.args)
+        values = {"step": (0, 1), "ramp": (0, 1), "pulse": (0, 1), "sine": (0,),
+                  "table": tuple(range(1, len(a), 2))}[e.name]
+        for i in values:
+            a[i] -= k
+        return Wave(Shape(e.name, tuple(a)), w.unit)
+    return Wave(Binary("-", e, Const(k)), w.unit)
 
 
 def _thin(pts: list[tuple[float, float]]) -> list[tuple[float, float]]:
@@ -378,7 +413,8 @@ def write_netlist(design: Design, starts: Starts | None = None) -> str:
     return netlist(design, starts)[0]
 
 
-def netlist(design: Design, starts: Starts | None = None) -> tuple[str, Names]:
+def netlist(design: Design, starts: Starts | None = None, clock: bool = True,
+            options: str = OPTIONS) -> tuple[str, Names]:
     """The netlist text and the name map it was written with (for reading results back).
 
     `starts` holds our solved states that the netlist carries: the steady state as the
@@ -393,7 +429,7 @@ def netlist(design: Design, starts: Starts | None = None) -> tuple[str, Names]:
     ac = excite(design, w)  # the first `response`'s input gets AC 1, and the sweep its band
     nm.edge = w.edge
     tr = design.transient
-    tail = [OPTIONS]
+    tail = [options]
     if starts.want_op:
         guess = w.node_values(starts.guess) if starts.guess is not None else {}
         # Temperatures only: from 0 V a thermal node is at absolute zero, far from any answer.
@@ -403,6 +439,12 @@ def netlist(design: Design, starts: Starts | None = None) -> tuple[str, Names]:
         thermal = {nm.nodes[n.name] for n in design.nodes.values() if n.domain == THERMAL}
         tail += [f".nodeset V({n})={num(v)}" for n, v in guess.items() if n in thermal] + [".op"]
     if tr:
+        first = FIRST_STEP * tr.until
+        if clock:
+            w.lines.append(f"vclock_start x_clock_start 0 PWL(0 0 {num(first)} 0)")
+            w.internal_node("x_clock_start", "the start (a 0 V source whose corner keeps the first step small)",
+                            lambda value: 0.0)
+            w.row("vclock_start", "start clock: 0 V, its one corner keeps the simulator's first step small")
         w.fill_ic(starts.initial)
         tail += [f".ic V({n})={num(v)}" for n, v in w.node_values(starts.initial).items()]
         tail.append(f".tran {num(w.step)} {num(tr.until)} uic")
