@@ -209,9 +209,12 @@ def _consistent(sys, fac, state, x, t, t_end, weights, stats, floor, stored):
     Returns (x_plus, ok, eps). The stored quantities (a coil's current, a mass's temperature) may
     not move in it; when one does (a coil forced through an open switch decays in L/R_off, often
     nanoseconds), the step is taken again a thousand times shorter."""
+    # A stored quantity is a row of C·x (a capacitor's charge, a coil's flux, a mass's heat), not
+    # an unknown: both nodes of a floating capacitor may jump together while its charge holds.
+    C = sys.C
     for eps in (t_end * 1e-10, t_end * 1e-13):
-        x_plus, ok = _stage(sys, fac, eps / D, state, sys.C @ x, t, x, False, weights, stats, floor)
-        if ok and not np.any((np.abs(x_plus - x) > weights)[stored]):
+        x_plus, ok = _stage(sys, fac, eps / D, state, C @ x, t, x, False, weights, stats, floor)
+        if ok and not np.any((np.abs(C @ (x_plus - x)) > abs(C) @ weights)[stored]):
             break
     return x_plus, ok, eps
 
@@ -253,7 +256,7 @@ def integrate(sys: System, x0: np.ndarray, t_end: float, max_step: float | None 
     # Derivatives are kept only where a signal reads them: node voltages and branch currents.
     keep_d = np.flatnonzero((kinds == "V") | (kinds == "I"))
     C = sys.C
-    stored = np.diff(C.tocsc().indptr) > 0  # unknowns that hold a stored quantity (continuous in time)
+    stored = np.diff(C.tocsr().indptr) > 0  # rows of C·x: the stored quantities (continuous in time)
     fac = _Factors(sys)
     stats = {"newton": 0}
 
