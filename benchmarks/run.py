@@ -1,13 +1,15 @@
 """Benchmark: plates of N × N cells through netgen, the outside simulator and the scipy floors.
 
-    python benchmarks/run.py [--sizes 10 50 100 300] [--steps 1000] [--nonlinear 100]
-                             [--spice-max 100] [--work DIR] [--json FILE]
+    python benchmarks/run.py [--sizes 50 100 200 300 500] [--steps 1000] [--nonlinear 50]
+                             [--spice-max 100] [--work DIR] [--json FILE] [--readme]
 
 For each size: the plate written as plain statements (and as one `plate` statement) is read
 (`netgen check`) and run (`netgen run`) end to end; the run beyond reading is timed in-process;
-the same matrices (`netgen matrices`) go through a bare fixed-step TR-BDF2 loop and through
-scipy's solve_ivp (BDF); the exported netlist (`netgen export`) through `ngspice -b -r`. Every
-measurement is its own process, so its time and peak memory (ru_maxrss) are its own. The
+the same matrices (`netgen matrices`) go through the one-solve floor (trapezoidal rule, one LU,
+one solve a step), the same-method floor (a bare fixed-step TR-BDF2 loop) and scipy's solve_ivp
+(BDF); the exported netlist (`netgen export`) through `ngspice -b -r`, once with the tolerances
+it states and once with the simulator's defaults. Every measurement is its own process, so its
+CPU time (user + system, from wait4) and peak memory (ru_maxrss) are its own. The
 nonlinear case adds thermoelectric modules and a driver circuit to the plate and is compared
 with its linear twin. Prints one table and the cost exponents; not part of the test suite.
 """
@@ -33,15 +35,15 @@ import grids  # noqa: E402
 PHASES = r"""
 import json, sys, time
 import numpy as np
-t0 = time.perf_counter()
+t0 = time.process_time()
 import netgen
 from netgen.solve.steady import solve_dc
 from netgen.solve.assembly import assemble
-t1 = time.perf_counter()
+t1 = time.process_time()
 d = netgen.load(sys.argv[1])
-t2 = time.perf_counter()
+t2 = time.process_time()
 res = d.run()
-t3 = time.perf_counter()
+t3 = time.process_time()
 if len(sys.argv) > 2:
     np.save(sys.argv[2], solve_dc(assemble(d), 0.0, impose=True))
 print(json.dumps({"import": t1 - t0, "load": t2 - t1, "run": t3 - t2, "stats": res.stats,
@@ -50,7 +52,8 @@ print(json.dumps({"import": t1 - t0, "load": t2 - t1, "run": t3 - t2, "stats": r
 
 
 def measure(cmd: list[str], cwd: Path, timeout: float | None = None) -> dict:
-    """Run one process; its wall time, peak resident memory (MB), exit code and output."""
+    """Run one process; its CPU time (`seconds`: user + system), wall time, peak resident memory
+    (MB), exit code and output. A timeout is on the wall clock."""
     out_path, err_path = cwd / ".stdout", cwd / ".stderr"
     with open(out_path, "wb") as out, open(err_path, "wb") as err:
         t0 = time.perf_counter()
@@ -63,8 +66,8 @@ def measure(cmd: list[str], cwd: Path, timeout: float | None = None) -> dict:
         if timer:
             timer.cancel()
         p.returncode = os.waitstatus_to_exitcode(status)
-    return {"seconds": seconds, "peak_mb": usage.ru_maxrss / 1024.0, "rc": p.returncode,
-            "timed_out": bool(timeout) and seconds >= timeout * 0.999,
+    return {"seconds": usage.ru_utime + usage.ru_stime, "wall": seconds, "peak_mb": usage.ru_maxrss / 1024.0,
+            "rc": p.returncode, "timed_out": bool(timeout) and seconds >= timeout * 0.999,
             "stdout": out_path.read_text(errors="replace"), "stderr": err_path.read_text(errors="replace")}
 
 
@@ -78,7 +81,24 @@ def ok(m: dict, what: str) -> dict:
     return m
 
 
-def case(work: Path, name: str, text: str, steps: int, spice: bool, floors: bool, spice_timeout: float) -> dict:
+def defaults(netlist: str) -> str:
+    """The netlist with the simulator's default tolerances: its `.options` keep only the method."""
+    return re.sub(r"^\.options .*$", lambda m: " ".join(w for w in m.group(0).split() if not re.match(
+        r"(reltol|abstol|vntol|chgtol|trtol)=", w, re.I)), netlist, flags=re.M | re.I)
+
+
+def spice_run(d: Path, netlist: str, timeout: float) -> dict:
+    m = measure(["ngspice", "-b", "-r", "out.raw", netlist], d, timeout)
+    if m["rc"] != 0 and not m["timed_out"]:
+        raise SystemExit(f"ngspice failed on {netlist}:\n{m['stderr'][-2000:]}{m['stdout'][-2000:]}")
+    hit = re.search(r"Total analysis time \(seconds\) = ([0-9.eE+-]+)", m["stdout"] + m["stderr"])
+    m["analysis"] = float(hit.group(1)) if hit else None
+    (d / "out.raw").unlink(missing_ok=True)
+    return m
+
+
+def case(work: Path, name: str, text: str, steps: int, spice: bool, floors: bool, spice_timeout: float,
+         ivp: bool = True, ivp_timeout: float = 600.0) -> dict:
     d = work / name
     d.mkdir(parents=True, exist_ok=True)
     f = d / f"{name}.etn"
@@ -91,20 +111,22 @@ def case(work: Path, name: str, text: str, steps: int, spice: bool, floors: bool
     r["unknowns"] = r["phases"]["unknowns"]
     if floors:
         ok(measure(netgen_cmd("matrices", f.name, "-o", "."), d), f"netgen matrices {name}")
-        for kind in ("loop", "ivp"):
-            m = ok(measure([sys.executable, str(HERE / "floor.py"), kind, ".", str(steps), "1.0"], d), f"{kind} {name}")
+        for kind in ("trap", "loop", "ivp"):
+            if kind == "ivp" and not ivp:
+                continue
+            m = measure([sys.executable, str(HERE / "floor.py"), kind, ".", str(steps), "1.0"], d,
+                        ivp_timeout if kind == "ivp" else None)
+            if m["timed_out"]:
+                r[kind] = m
+                continue
+            ok(m, f"{kind} {name}")
             m["result"] = json.loads(m["stdout"].strip().splitlines()[-1])
             r[kind] = m
     if spice:
-        ok(measure(netgen_cmd("export", f.name, "-o", f"{name}.cir"), d), f"netgen export {name}")
-        m = measure(["ngspice", "-b", "-r", "out.raw", f"{name}.cir"], d, spice_timeout)
-        if m["rc"] != 0 and not m["timed_out"]:
-            raise SystemExit(f"ngspice failed on {name}:\n{m['stderr'][-2000:]}{m['stdout'][-2000:]}")
-        hit = re.search(r"Total analysis time \(seconds\) = ([0-9.eE+-]+)", m["stdout"] + m["stderr"])
-        m["analysis"] = float(hit.group(1)) if hit else None
-        r["spice"] = m
-        for p in (d / "out.raw",):
-            p.unlink(missing_ok=True)
+        r["export"] = ok(measure(netgen_cmd("export", f.name, "-o", f"{name}.cir"), d), f"netgen export {name}")
+        (d / f"{name}-defaults.cir").write_text(defaults((d / f"{name}.cir").read_text()))
+        r["spice"] = spice_run(d, f"{name}.cir", spice_timeout)  # the tolerances the netlist states
+        r["spice_defaults"] = spice_run(d, f"{name}-defaults.cir", spice_timeout)
     return r
 
 
@@ -127,25 +149,31 @@ def fmt_t(m: dict | None, key="seconds") -> str:
 
 
 def table(results: list[dict], plates: dict) -> str:
-    head = ("| case | unknowns | check s (MB) | plate check s | run s (MB) | plate run s (MB) | beyond reading s "
-            "| floor loop s (MB) | × floor | solve_ivp BDF s (MB) | ngspice s (MB) | ngspice ÷ run |")
+    head = ("| case | unknowns | check s | run s (MB) | plate run s (MB) | in solver s | one-solve floor s (MB) "
+            "| run ÷ floor | in solver ÷ floor | same-method floor s | in solver ÷ same method "
+            "| solve_ivp BDF s (MB) | ngspice, stated tolerances s (MB) | ngspice, defaults s | ngspice defaults ÷ run |")
     rows = [head, "|" + "|".join(["---"] * (head.count("|") - 1)) + "|"]
     for r in results:
         p = plates.get(r["case"])
         beyond = r["phases"]["run"]
-        loop, ivp, sp = r.get("loop"), r.get("ivp"), r.get("spice")
+        trap, loop, ivp = r.get("trap"), r.get("loop"), r.get("ivp")
+        sp, spd = r.get("spice"), r.get("spice_defaults")
+        floor = trap["result"]["seconds"] if trap and "result" in trap else None
         cells = [
-            r["case"], str(r["unknowns"]),
-            f"{fmt_t(r['check'])} ({r['check']['peak_mb']:.0f})",
-            fmt_t(p["check"]) if p else "-",
+            r["case"], str(r["unknowns"]), fmt_t(r["check"]),
             f"{fmt_t(r['run'])} ({r['run']['peak_mb']:.0f})",
             f"{fmt_t(p['run'])} ({p['run']['peak_mb']:.0f})" if p else "-",
             f"{beyond:.3g}",
-            f"{loop['result']['seconds']:.3g} ({loop['peak_mb']:.0f})" if loop else "-",
+            f"{floor:.3g} ({trap['peak_mb']:.0f})" if floor else "-",
+            f"{r['run']['seconds'] / floor:.2f}" if floor else "-",
+            f"{beyond / floor:.2f}" if floor else "-",
+            f"{loop['result']['seconds']:.3g}" if loop else "-",
             f"{beyond / loop['result']['seconds']:.2f}" if loop else "-",
-            f"{ivp['result']['seconds']:.3g} ({ivp['peak_mb']:.0f})" if ivp else "-",
+            ("> limit" if ivp.get("timed_out") else f"{ivp['result']['seconds']:.3g} ({ivp['peak_mb']:.0f})")
+            if ivp else "skipped",
             f"{fmt_t(sp)} ({sp['peak_mb']:.0f})" if sp else "skipped",
-            (("> " if sp.get("timed_out") else "") + _ratio(sp["seconds"] / r["run"]["seconds"])) if sp else "-",
+            fmt_t(spd) if spd else "skipped",
+            (("> " if spd.get("timed_out") else "") + _ratio(spd["seconds"] / r["run"]["seconds"])) if spd else "-",
         ]
         rows.append("| " + " | ".join(cells) + " |")
     return "\n".join(rows)
@@ -190,9 +218,12 @@ def machine() -> str:
 
 def main(argv=None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    ap.add_argument("--sizes", type=int, nargs="+", default=[10, 50, 100, 300])
+    ap.add_argument("--sizes", type=int, nargs="+", default=[50, 100, 200, 300, 500])
     ap.add_argument("--steps", type=int, default=1000, help="seconds simulated, reported every second")
-    ap.add_argument("--nonlinear", type=int, nargs="*", default=[50, 100], help="sizes of the case with modules")
+    ap.add_argument("--nonlinear", type=int, nargs="*", default=[50], help="sizes of the case with modules")
+    ap.add_argument("--ivp-max", type=int, default=200, help="largest size given to solve_ivp")
+    ap.add_argument("--ivp-timeout", type=float, default=600.0, help="wall-clock limit of one solve_ivp run")
+    ap.add_argument("--readme", action="store_true", help="write the table into benchmarks/README.md")
     ap.add_argument("--spice-max", type=int, default=100, help="largest size given to ngspice")
     ap.add_argument("--nonlinear-spice-max", type=int, default=50, help="largest case with modules given to ngspice")
     ap.add_argument("--spice-timeout", type=float, default=3600.0)
@@ -211,7 +242,7 @@ def main(argv=None) -> int:
                          "linearly; at 100² it already takes minutes)")
         print(f"grid {n} x {n} ...", file=sys.stderr, flush=True)
         r = case(work, f"grid{n}", grids.plain(n, args.steps), args.steps, spice, not args.no_floors,
-                 args.spice_timeout)
+                 args.spice_timeout, n <= args.ivp_max, args.ivp_timeout)
         results.append(r)
         plates[r["case"]] = plate_case(work, n, args.steps)
     for n in args.nonlinear:
@@ -223,9 +254,13 @@ def main(argv=None) -> int:
                             args.spice_timeout))
     if not spice_ok:
         notes.append("ngspice not found: the outside simulator was not run")
-    print(f"\nmachine: {machine()}")
-    print(f"{args.steps} s simulated, results every 1 s; times in seconds, peak resident memory in MB\n")
-    print(table(results, plates))
+    where = machine()
+    when = time.strftime("%Y-%m-%d %H:%M UTC", time.gmtime())
+    print(f"\nmachine: {where}")
+    print(f"{args.steps} s simulated, results every 1 s; CPU seconds, peak resident memory in MB\n")
+    tab = table(results, plates)
+    print(tab)
+    summary: list[str] = []
     for r in results:
         st = r["phases"]["stats"]
         print(f"\n{r['case']}: netgen {st.get('steps')} steps, {st.get('rejected')} rejected, "
@@ -238,12 +273,14 @@ def main(argv=None) -> int:
             print(f"; ngspice analysis {r['spice']['analysis']:.3g} s", end="")
     print()
     by = {r["case"]: r for r in results}
-    for a, b in ((50, 300), (50, 100), (100, 300)):
+    for a, b in ((100, 500), (100, 300), (50, 100)):
         e1 = exponent(results, a, b, lambda r: r["phases"]["run"])
         e2 = exponent(results, a, b, lambda r: r["run"]["seconds"])
+        e3 = exponent(results, a, b, lambda r: r["trap"]["result"]["seconds"] if "result" in r.get("trap", {}) else math.nan)
         if e1 is not None:
-            print(f"cost exponent {a}² → {b}² (time ∝ unknowns^p): run beyond reading p = {e1:.2f}, "
-                  f"netgen run end to end p = {e2:.2f}")
+            summary.append(f"growth exponent {a}² → {b}² (CPU time ∝ unknowns^p): in solver p = {e1:.2f}, "
+                           f"netgen run end to end p = {e2:.2f}, one-solve floor p = {e3:.2f}")
+            print(summary[-1])
     for n in args.nonlinear:
         nl, lin = by.get(f"modules{n}"), by.get(f"grid{n}")
         if nl and lin:
@@ -251,6 +288,18 @@ def main(argv=None) -> int:
                   f"end to end {nl['run']['seconds'] / lin['run']['seconds']:.2f}")
     for note in notes:
         print(f"note: {note}")
+    if args.readme:
+        text = (f"Measured {when} by `python benchmarks/run.py {' '.join(argv if argv is not None else sys.argv[1:])}`"
+                f" on {where}; {args.steps} s simulated, results every 1 s; CPU seconds (user + system), peak "
+                f"resident memory in MB.\n\n{tab}\n\n" + "".join(f"- {x}\n" for x in summary + [f"note: {n}" for n in notes]))
+        readme = HERE / "README.md"
+        old = readme.read_text()
+        start, end = "<!-- table: benchmarks/run.py --readme -->", "<!-- end of table -->"
+        if start in old and end in old:
+            new = old[: old.index(start) + len(start)] + "\n" + text + old[old.index(end):]
+        else:
+            new = old.rstrip("\n") + f"\n\n## Latest measurement\n\n{start}\n{text}{end}\n"
+        readme.write_text(new)
     if args.json:
         slim = [{k: ({kk: vv for kk, vv in v.items() if kk not in ("stdout", "stderr")} if isinstance(v, dict) else v)
                  for k, v in r.items()} for r in results]

@@ -264,7 +264,7 @@ def test_compare_says_agree_only_on_everything(honest):
     assert compare(ours, nm, [op, tran], Tolerances()).passed
     with pytest.raises(SimulatorError, match="hold no values for"):
         compare(ours, nm, _lie("other-names", op, tran), Tolerances())
-    with pytest.raises(SimulatorError, match=r"transient ends at 3\.69904 s, before the end of the run \(10 s\): 14 of our 27 points"):
+    with pytest.raises(SimulatorError, match=r"transient ends at 3\.69133 s, before the end of the run \(10 s\): 14 of our 27 points"):
         compare(ours, nm, _lie("ends-early", op, tran), Tolerances())
     with pytest.raises(SimulatorError, match="no point"):
         compare(ours, nm, [_copy(op, op.data[:0]), tran], Tolerances())

@@ -83,7 +83,7 @@ class Link(TwoTerminal):
             law = over(1.0, typed.expr) if resistance else typed.expr
             g = law_at(r, value, law, "a link's conductance")
         else:
-            v = r.const(value, typed.dim, "a link value", positive=True)
+            v = r.checked(value, typed, "a link value", positive=True)  # read once, above
             g = 1.0 / v if resistance else v
         r.design.elements.append(Link(name, r.loc(name_tok), a=na, b=nb, conductance=g, law=law))
 

@@ -17,9 +17,9 @@ from netgen.model.design import (
 )
 from netgen.model.errors import NetgenError, NetgenErrors
 from netgen.model.expr import Binary, Const, Func, SignalRef, Wave
-from netgen.language import plate, response
+from netgen.language import direct, plate, response
 from netgen.language.grammar import parser, paused_gc
-from netgen.language.plain_lines import TooDeep
+from netgen.language.plain_lines import Statements, TooDeep
 from netgen.language.parts import MAX_STATEMENTS, PartDef, PartsMixin, TooLarge  # noqa: F401
 from netgen.language import affine
 from netgen.language.expressions import ExprReader, SIGNAL_KINDS, Typed
@@ -146,7 +146,13 @@ class Elaborator(PartsMixin):
 
     def statements(self, stmts) -> None:
         """Elaborate statements one by one, collecting located errors (up to MAX_ERRORS)."""
-        for stmt in stmts:
+        plain = isinstance(stmts, Statements)
+        for stmt in (stmts.raw() if plain else stmts):
+            if plain and isinstance(stmt, int):  # a plain line: straight into the Design if it can
+                line, m = stmts.line_match(stmt)
+                if direct.read(self, line, m, stmt + 1):
+                    continue
+                stmt = stmts.tree_at(stmt)
             if not isinstance(stmt, Tree):
                 continue
             try:
@@ -258,6 +264,10 @@ class Elaborator(PartsMixin):
         t = self.typed(tree)
         dims = dims if isinstance(dims, tuple) else (dims,)
         self.need_dim(tree, t, dims, what)
+        return self.checked(tree, t, what, positive, nonneg)
+
+    def checked(self, tree, t: Typed, what: str, positive=False, nonneg=False) -> float:
+        """The value of `t`, already read from `tree` and of the right dimension, if constant."""
         if not isinstance(t.expr, Const):
             raise self.err(tree, f"{what} must be constant", "only `fixed`, `heat` and `source` values may vary in time")
         v = t.value

@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import difflib
+import functools
 import math
 import re
 from dataclasses import dataclass
@@ -45,6 +46,7 @@ class Typed:
         return self.expr.v  # only for constants
 
 
+@functools.lru_cache(maxsize=4096)  # a mesh repeats a few value texts (`2 W/K`) thousands of times
 def read_quantity(text: str) -> tuple[float, U.Dim, bool]:
     """`0.45 J/K` → (0.45, J/K, False); `24 degC` → (297.15, K, True)."""
     m = _NUM.match(text)

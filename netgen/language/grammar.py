@@ -8,6 +8,7 @@ from pathlib import Path
 
 from lark import Lark
 
+from netgen.language import tables
 from netgen.language.plain_lines import LineReader, check_depth
 
 
@@ -56,13 +57,9 @@ class Parser:
 def parser() -> Parser:
     # No cache: lark's cache is a pickle, kept at a predictable name in the shared temporary
     # folder, so whoever wrote that file first ran code in every later netgen process. Building
-    # the tables costs about 0.2 s of CPU per command (issue 17).
-    return Parser(Lark(
-        grammar_text(),
-        parser="lalr",
-        lexer="contextual",
-        propagate_positions=True,
-        maybe_placeholders=True,
-        start=["start", "expr"],
-        cache=False,
-    ))
+    # the tables costs about 0.4 s of CPU per command (issue 17), so they are shipped beside the
+    # grammar as JSON and used when they were built from this very grammar (language/tables.py).
+    text = grammar_text()
+    stored = tables.read_stored()
+    lark = tables.loads(stored, text) if stored else None
+    return Parser(lark or tables.build(text))

@@ -48,15 +48,23 @@ class LineReader:
         value = rf"(?P<v>(?P<vq>{qty})|{name})"
         start_value = rf"(?P<s>(?P<sq>{qty})|{name})"
         tail = r"[ \t]*(?:#[^\n]*)?\r?$"
-        self.res = {}
+        self.patterns = {}
         for kw, (k, has_value, _, start_ok) in SHAPES.items():
             pat = rf"[ \t]*(?P<kw>{kw})" + "".join(rf"[ \t]+(?P<n{i}>{name})" for i in range(k))
             if has_value:
                 pat += rf"[ \t]+{value}"
             if start_ok:
                 pat += rf"(?:[ \t]+(?P<sk>start)[ \t]+{start_value})?"
-            self.res[kw] = re.compile(pat + tail)
+            self.patterns[kw] = pat + tail
+        self.res: dict = {}  # compiled when a keyword is first met: each costs ~4 ms of start-up
         self.first_word = re.compile(r"[ \t]*([a-z]+)")
+        self.agree: dict[str, bool] = {}  # rest of a line from a quantity → lark would split it there too
+
+    def _pattern(self, kw: str):
+        rx = self.res.get(kw)
+        if rx is None and kw in self.patterns:
+            rx = self.res[kw] = re.compile(self.patterns[kw])
+        return rx
 
     # ---- one line ---------------------------------------------------------------------
     def match(self, line: str):
@@ -64,16 +72,25 @@ class LineReader:
         w = self.first_word.match(line)
         if w is None:
             return None
-        rx = self.res.get(w.group(1))
+        rx = self.res.get(w.group(1)) or self._pattern(w.group(1))
         if rx is None:
             return None
         m = rx.match(line)
         if m is None:
             return None
         # Lark's lexer takes the first QUANTITY match at each place; the line's split must agree.
+        # The answer depends only on the rest of the line, which a mesh repeats (`2 W/K`): kept.
+        agree = self.agree
         for group, q in (("v", "vq"), ("s", "sq")):
             if group in rx.groupindex and m.group(q) is not None:
-                if self.qty_re.match(line, m.start(group)).end() != m.end(group):
+                a = m.start(group)
+                rest = line[a:]
+                ok = agree.get(rest)
+                if ok is None:
+                    if len(agree) > 4096:
+                        agree.clear()
+                    ok = agree[rest] = self.qty_re.match(rest).end() == m.end(group) - a
+                if not ok:
                     return None
         return m
 
@@ -176,6 +193,18 @@ class Statements(Sequence):
             return item
         line = self.lines[item]
         return self.reader.tree(self.reader.match(line), item + 1, self.offsets[item])
+
+    def raw(self):
+        """The items as kept: lark's trees, and the indices of plain lines (read by `line_match`
+        and `tree_at`), for a reader that takes plain lines without trees (language/direct.py)."""
+        return iter(self.items)
+
+    def line_match(self, i: int):
+        line = self.lines[i]
+        return line, self.reader.match(line)
+
+    def tree_at(self, i: int):
+        return self._tree(i)
 
     def __len__(self) -> int:
         return len(self.items)

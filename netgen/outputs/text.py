@@ -14,8 +14,6 @@ from netgen.elements import Thermoelectric
 from netgen.model.design import ELECTRICAL, THERMAL, Design
 from netgen.model.signals import kind_of, signal_unit
 from netgen.model.errors import NetgenError
-from netgen.solve.assembly import assemble
-from netgen.solve.steady import solve_dc
 
 ZERO_C = 273.15
 
@@ -53,6 +51,11 @@ def describe(d: Design) -> str:
 
 def _start_temperatures(d: Design) -> dict[str, float]:
     """Temperatures of the transient's start (or the steady state); {} when that cannot be solved."""
+    # The solvers (and scipy with them) only for designs with modules: `netgen check` of any
+    # other design starts without them.
+    from netgen.solve.assembly import assemble
+    from netgen.solve.steady import solve_dc
+
     try:
         sys_ = assemble(d)
         x = solve_dc(sys_, 0.0, impose=d.transient is not None)
