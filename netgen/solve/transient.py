@@ -377,18 +377,8 @@ def integrate(sys: System, x0: np.ndarray, t_end: float, max_step: float | None 
             # (and the current through a closing switch) must jump too. A backward-Euler step of
             # negligible length finds that consistent state; the stored ones barely move.
             state = sys.switch_state(t, dyn)
-            x_plus, ok, eps = _consistent(sys, fac, state, x, t, t_end, weights, stats, floor, stored)
-            if ok and np.max(np.abs(x_plus - x) / weights) > 1e-6:
-                left_rows[-1] = True
-                times.append(t)
-                xs.append(x_plus)
-                # The derivative just after the corner; across every capacitor and inductor the
-                # stored quantity moved by O(eps), so these differences are the right-hand slopes.
-                xds.append(((x_plus - x) / eps)[keep_d])
-                left_rows.append(False)
-                x = x_plus
-            z = -sys.F(x, t, state)
-            z[alg] = 0.0
+            x, z = _restart(sys, fac, state, x, t, t_end, weights, stats, floor, stored,
+                            (times, xs, xds, left_rows, keep_d))
             if fire:
                 watch.check_gap(pending[1], dyn[pending[1]], x, np.zeros(n), t)
             xdot_at_t = None  # sources may have jumped: the next step filters its estimate
@@ -413,17 +403,29 @@ def _fire(sys, fac, watch, dyn, events, k, t, x, t_end, atol, rtol, offset, stat
     events.append({"element": sys.switches[k].name, "what": "closes" if dyn[k] else "opens", "time": t})
     state = sys.switch_state(t, dyn)
     weights = atol + rtol * np.abs(x - offset)
-    x_plus, ok, eps = _consistent(sys, fac, state, x, t, t_end, weights, stats, (atol, rtol, offset), stored)
+    x, z = _restart(sys, fac, state, x, t, t_end, weights, stats, (atol, rtol, offset), stored,
+                    (times, xs, xds, left_rows, keep_d))
+    watch.check_gap(k, dyn[k], x, np.zeros(len(x)), t)
+    return x, z
+
+
+def _restart(sys, fac, state, x, t, t_end, weights, stats, floor, stored, rows):
+    """The consistent state just after a corner or an event at t, stored as a second point at t
+    when it differs from the one before (`rows`: the run's times, states, derivatives, left-limit
+    flags and kept derivative columns). Returns (x, z) to go on from."""
+    times, xs, xds, left_rows, keep_d = rows
+    x_plus, ok, eps = _consistent(sys, fac, state, x, t, t_end, weights, stats, floor, stored)
     if ok and np.max(np.abs(x_plus - x) / weights) > 1e-6:
         left_rows[-1] = True
         times.append(t)
         xs.append(x_plus)
+        # The derivative just after the corner; across every capacitor and inductor the
+        # stored quantity moved by O(eps), so these differences are the right-hand slopes.
         xds.append(((x_plus - x) / eps)[keep_d])
         left_rows.append(False)
         x = x_plus
     z = -sys.F(x, t, state)
     z[sys.algebraic_rows] = 0.0
-    watch.check_gap(k, dyn[k], x, np.zeros(len(x)), t)
     return x, z
 
 
