@@ -197,3 +197,12 @@ def test_missing_ground_names_what_reaches_the_nodes(tmp_path, capsys, text):
     code, out = _run(tmp_path, capsys, text)
     assert code == 2 and "nothing" not in out and "()" not in out
     assert "have no path to a ground" in out or "reached only through capacitors" in out
+
+
+def test_a_wrong_unit_is_named_in_plain_units(tmp_path, capsys):
+    """A gain written in A/W where A/K is needed: the message names `A/W`, not its base units."""
+    text = ("ground g\nfixed bath 300 K\nmass body 1 J/K\nlink k body bath 1 W/K\nsource drive p g 1 A\n"
+            "resistor r p g 1 ohm\ncontroller hold T(body) at 290 K by drive { proportional 0.5 A/W }\n"
+            "transient until 1 s\n")
+    code, out = _run(tmp_path, capsys, text)
+    assert code == 2 and "needs A/K, not A/W" in out and "kg" not in out

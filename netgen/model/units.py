@@ -235,6 +235,14 @@ def unit_name(d: Dim) -> str:
     for dim, name in _NAMES:
         if dim == d:
             return name
+    # Next, one plain unit over or times another (`A/W`, not `s^3*A/(kg*m^2)`).
+    simple = [(dim, name) for dim, name in _NAMES if name.isalpha()]
+    for da, na in simple:
+        for db, nb in simple:
+            if da / db == d:
+                return f"{na}/{nb}"
+            if da * db == d:
+                return f"{na}*{nb}"
     num, den = [], []
     for base, e in zip(_BASES, d.exps):
         if e == 0:
