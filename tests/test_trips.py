@@ -206,3 +206,13 @@ def test_a_wrong_unit_is_named_in_plain_units(tmp_path, capsys):
             "transient until 1 s\n")
     code, out = _run(tmp_path, capsys, text)
     assert code == 2 and "needs A/K, not A/W" in out and "kg" not in out
+
+
+def test_an_unknown_parameter_lists_the_designs_parameters(tmp_path, capsys):
+    """`--set` of a name that is far from every parameter: the hint lists the ones there are."""
+    path = tmp_path / "d.etn"
+    path.write_text("let ambient = 24 degC\nlet leak = 2 W/K\nfixed room ambient\nmass m 1 J/K\n"
+                    "link k m room leak\nsteady\n")
+    code = main(["check", str(path), "--set", "I_drive=2 A"])
+    err = capsys.readouterr().err
+    assert code == 2 and "this design's: ambient, leak" in err

@@ -136,7 +136,9 @@ class Elaborator(PartsMixin):
             close = difflib.get_close_matches(name, list(self.params), n=1)
             self.errors.append(NetgenError(
                 f"{self.overrides.flag} {name}: the design has no parameter `{name}`",
-                None, f"did you mean `{close[0]}`?" if close else "only names defined with `let` can be set",
+                None, f"did you mean `{close[0]}`?" if close else (
+                    "only names defined with `let` can be set; "
+                    + (f"this design's: {', '.join(sorted(self.params))}" if self.params else "this design has none")),
             ))
         if self.errors:
             raise NetgenErrors(self.errors) if len(self.errors) > 1 else self.errors[0]
