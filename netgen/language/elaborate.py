@@ -122,6 +122,15 @@ class Elaborator(PartsMixin):
             raise e
 
     # ---- driver ------------------------------------------------------------------
+    def _comparison(self, cmp_tok, within, within_t, example: str) -> str:
+        """An expectation's comparison, checked against its `within`: `=` needs one, the others none."""
+        cmp = str(cmp_tok)
+        if cmp == "=" and within is None:
+            raise self.err(cmp_tok, "`=` needs `within TOL`", example)
+        if cmp != "=" and within is not None:
+            raise self.err(within_t, f"`within` only goes with `=`, not with `{cmp}`")
+        return cmp
+
     def run(self) -> Design:
         check_breaks(self.text, self.file, self.lines)
         tree = self.parse(self.text)
@@ -507,11 +516,7 @@ class Elaborator(PartsMixin):
                 raise self.err(within_t, "a tolerance is a temperature difference, not an absolute temperature "
                                "(`degC`)", "write it in K: `within 0.5 K`")
             within = w.value if w.dim == typed.dim else -w.value  # negative marks a relative tolerance
-        cmp = str(cmp_tok)
-        if cmp == "=" and within is None:
-            raise self.err(cmp_tok, "`=` needs `within TOL`", "e.g. `= 4 degC within 0.5 K`")
-        if cmp != "=" and within is not None:
-            raise self.err(within_t, f"`within` only goes with `=`, not with `{cmp}`")
+        cmp = self._comparison(cmp_tok, within, within_t, "e.g. `= 4 degC within 0.5 K`")
         between = None
         if b1 is not None and agg == "at":
             raise self.err(b1, "`between` does not go with `at TIME`", "use `max`, `min`, `mean` or `final` over an interval")
@@ -588,11 +593,7 @@ class Elaborator(PartsMixin):
             if w.dim != U.TIME and not w.dim.dimensionless:
                 raise self.err(within_t, "`within` needs a time (e.g. `2 ms`) or a fraction such as `1 %`")
             within = w.value if w.dim == U.TIME else -w.value
-        cmp = str(cmp_tok)
-        if cmp == "=" and within is None:
-            raise self.err(cmp_tok, "`=` needs `within TOL`", "e.g. `= 3.4 s within 2 ms`")
-        if cmp != "=" and within is not None:
-            raise self.err(within_t, f"`within` only goes with `=`, not with `{cmp}`")
+        cmp = self._comparison(cmp_tok, within, within_t, "e.g. `= 3.4 s within 2 ms`")
         between = None
         if b1 is not None:
             between = (self.const(b1, U.TIME, "a time"), self.const(b2, U.TIME, "a time"))
