@@ -1,38 +1,25 @@
 """Printed output of design studies: the progress line on a terminal and the table of rows."""
 from __future__ import annotations
 
-import sys
-import time
+from netgen.outputs.text import StatusLine
 
 MAX_TABLE_ROWS = 60  # longer tables are in the CSV file; the terminal shows their start and end
 
 
-class StudyProgress:
+class StudyProgress(StatusLine):
     """`sweep: 37 of 121 runs, 1 failed, 12 s, about 27 s left` on one line of standard error."""
 
     def __init__(self, what: str, stream=None):
-        self.what, self.stream = what, stream or sys.stderr
-        self.start = time.monotonic()
-        self.last = 0.0
-        self.shown = False
+        super().__init__(stream)
+        self.what = what
 
     def __call__(self, finished: int, total: int, failed: int) -> None:
-        now = time.monotonic()
-        if now - self.last < 0.2 and finished < total:
+        elapsed = self.due(force=finished >= total)
+        if elapsed is None:
             return
-        self.last = now
-        elapsed = now - self.start
         left = elapsed * (total - finished) / finished if finished else float("nan")
-        self.stream.write(f"\r  {self.what}: {finished} of {total} runs" + (f", {failed} failed" if failed else "")
-                          + f", {elapsed:.0f} s" + (f", about {left:.0f} s left" if finished < total else "") + "   ")
-        self.stream.flush()
-        self.shown = True
-
-    def done(self) -> None:
-        if self.shown:
-            self.stream.write("\n")
-            self.stream.flush()
-            self.shown = False
+        self.show(f"{self.what}: {finished} of {total} runs" + (f", {failed} failed" if failed else "")
+                  + f", {elapsed:.0f} s" + (f", about {left:.0f} s left" if finished < total else ""))
 
 
 def cell(v) -> str:

@@ -249,25 +249,27 @@ def print_modes(res: Results, out) -> None:
               f"and overshoots it by {f.overshoot:.3g} K at {f.overshoot_time:.3g} s before settling", file=out)
 
 
-class Progress:
-    """A one-line progress report on a terminal for transients longer than about a second."""
+class StatusLine:
+    """One line on standard error, rewritten in place at most every 0.2 s, ended by `done()`."""
 
-    def __init__(self, until: float, stream=None):
-        self.until, self.stream = until, stream or sys.stderr
+    def __init__(self, stream=None):
+        self.stream = stream or sys.stderr
         self.start = time.monotonic()
         self.last = 0.0
         self.shown = False
 
-    def __call__(self, t: float, steps: int) -> None:
+    def due(self, settle: float = 0.0, force: bool = False) -> float | None:
+        """The seconds elapsed when the line should be rewritten now, else None: not within
+        `settle` seconds of the start, nor within 0.2 s of the last time unless `force`."""
         now = time.monotonic()
         elapsed = now - self.start
-        if elapsed < 1.0 or now - self.last < 0.2:
-            return
+        if elapsed < settle or (now - self.last < 0.2 and not force):
+            return None
         self.last = now
-        frac = min(1.0, t / self.until) if self.until > 0 else 1.0
-        eta = elapsed * (1 - frac) / frac if frac > 0 else float("nan")
-        self.stream.write(f"\r  t = {t:.4g} s of {self.until:g} s ({100 * frac:.0f} %), {steps} steps, "
-                          f"{elapsed:.1f} s elapsed, about {eta:.0f} s left   ")
+        return elapsed
+
+    def show(self, text: str) -> None:
+        self.stream.write(f"\r  {text}   ")
         self.stream.flush()
         self.shown = True
 
@@ -275,3 +277,21 @@ class Progress:
         if self.shown:
             self.stream.write("\n")
             self.stream.flush()
+            self.shown = False
+
+
+class Progress(StatusLine):
+    """A one-line progress report on a terminal for transients longer than about a second."""
+
+    def __init__(self, until: float, stream=None):
+        super().__init__(stream)
+        self.until = until
+
+    def __call__(self, t: float, steps: int) -> None:
+        elapsed = self.due(settle=1.0)
+        if elapsed is None:
+            return
+        frac = min(1.0, t / self.until) if self.until > 0 else 1.0
+        eta = elapsed * (1 - frac) / frac if frac > 0 else float("nan")
+        self.show(f"t = {t:.4g} s of {self.until:g} s ({100 * frac:.0f} %), {steps} steps, "
+                  f"{elapsed:.1f} s elapsed, about {eta:.0f} s left")
