@@ -1,8 +1,12 @@
 """Large thermal blocks: CPU per step solve of a plate's TR-BDF2 matrix C + d·h·G with SuperLU
 (the ordering netgen uses) against conjugate gradients preconditioned by smoothed-aggregation
-algebraic multigrid (pyamg; `pip install ".[bench]"`).
+algebraic multigrid (pyamg; `pip install ".[bench]"`); with `--orderings`, SuperLU under three
+fill-reducing orderings: minimum degree on A + Aᵀ (netgen's), COLAMD, and nested dissection by
+METIS (pymetis, also in the bench extra; the matrix permuted symmetrically, then factored in that
+order).
 
     python benchmarks/solvers.py 100 200 300 500
+    python benchmarks/solvers.py --orderings 100 200 300 500
 
 The plate is benchmarks/grids.py's (0.5 J/K cells, 2 W/K links, the left column to a held edge
 through 4 W/K), h = 1 s. Ten right-hand sides of C·x for temperatures near 298 K; CG starts from
@@ -63,7 +67,44 @@ def measure(n: int) -> str:
             + " | ".join(cells) + " |")
 
 
+def orderings(n: int) -> str:
+    try:
+        import pymetis
+    except ImportError:
+        raise SystemExit("pymetis is not installed: pip install '.[bench]'") from None
+    C, G = plate(n)
+    M = (C + D * 1.0 * G).tocsc()
+    rhs = C @ (298.0 + np.random.default_rng(0).random(n * n))
+    cells = []
+    for name in ("MMD_AT_PLUS_A", "COLAMD", "METIS"):
+        t = time.process_time()
+        if name == "METIS":
+            S = M.tocsr().copy()
+            S.setdiag(0)
+            S.eliminate_zeros()
+            S.sort_indices()
+            p = np.asarray(pymetis.nested_dissection(pymetis.CSRAdjacency(S.indptr, S.indices))[0])
+            lu = spla.splu(M[p][:, p].tocsc(), permc_spec="NATURAL")
+            b = rhs[p]
+        else:
+            lu, b = spla.splu(M, permc_spec=name), rhs
+        factor = time.process_time() - t
+        t = time.process_time()
+        for _ in range(20):
+            lu.solve(b)
+        solve = (time.process_time() - t) / 20
+        cells.append(f"{factor:.3f} s, {(lu.L.nnz + lu.U.nnz) / (n * n):.1f}, {solve * 1e3:.2f} ms")
+    return f"| {n}² | {n * n} | " + " | ".join(cells) + " |"
+
+
 if __name__ == "__main__":
+    if sys.argv[1:2] == ["--orderings"]:
+        print("| plate | unknowns | minimum degree on A + Aᵀ: factor, fill per unknown, solve "
+              "| COLAMD | nested dissection (METIS) |")
+        print("|---|---|---|---|---|")
+        for size in map(int, sys.argv[2:] or ["100", "200", "300"]):
+            print(orderings(size), flush=True)
+        raise SystemExit(0)
     print("| plate | unknowns | SuperLU factor s | SuperLU solve | fill per unknown | AMG set-up s "
           "| CG + AMG solve, tol 1e-8 | CG + AMG solve, tol 1e-10 |")
     print("|---|---|---|---|---|---|---|---|")

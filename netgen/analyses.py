@@ -19,6 +19,7 @@ from netgen.elements import Thermoelectric
 from netgen.model.design import Design, Modes, Response
 from netgen.model.errors import NetgenError
 from netgen.solve.assembly import System, assemble
+from netgen.solve import factor
 from netgen.solve.events import Watch, timeline
 from netgen.solve.modes import forecast, modes
 from netgen.solve.response import response
@@ -102,7 +103,8 @@ class TransientAnalysis:
         res.time = wf.time
         res.waveforms = {s: sig(s, wf.x, wf.xdot, wf.time, wf.left_rows) for s in dict.fromkeys(r.wanted + extra)}
         res.initial = {name: float(v) for name, v in zip(sys.names, x0)}
-        res.stats = {"steps": wf.steps, "rejected": wf.rejected, "factorizations": wf.factorizations}
+        res.stats = {"steps": wf.steps, "rejected": wf.rejected, "factorizations": wf.factorizations,
+                     "solves": wf.solves, "linear_solver": factor.DESCRIPTION}
 
     @staticmethod
     def _start(sys: System, watch):
