@@ -30,6 +30,7 @@ from pathlib import Path
 
 HERE = Path(__file__).resolve().parent
 sys.path.insert(0, str(HERE))
+import accuracy  # noqa: E402
 import grids  # noqa: E402
 
 PHASES = r"""
@@ -37,6 +38,7 @@ import json, sys, time
 import numpy as np
 t0 = time.process_time()
 import netgen
+import netgen.api  # what `netgen.load` imports on first use: timed as import, not as reading
 from netgen.solve.steady import solve_dc
 from netgen.solve.assembly import assemble
 t1 = time.process_time()
@@ -87,25 +89,44 @@ def defaults(netlist: str) -> str:
         r"(reltol|abstol|vntol|chgtol|trtol)=", w, re.I)), netlist, flags=re.M | re.I)
 
 
-def spice_run(d: Path, netlist: str, timeout: float) -> dict:
+def reltol(netlist: str, value: float) -> str:
+    """The netlist with the tolerances it states, but `reltol` set to `value`."""
+    return re.sub(r"\breltol=\S+", f"reltol={value:g}", netlist, flags=re.I)
+
+
+# The outside simulator's settings: the netlist as exported, one step looser, and its defaults.
+SPICE_SETTINGS = (("stated", None), ("reltol 1e-6", 1e-6), ("defaults", "defaults"))
+
+
+def spice_run(d: Path, netlist: str, timeout: float, ref=None) -> dict:
     m = measure(["ngspice", "-b", "-r", "out.raw", netlist], d, timeout)
     if m["rc"] != 0 and not m["timed_out"]:
         raise SystemExit(f"ngspice failed on {netlist}:\n{m['stderr'][-2000:]}{m['stdout'][-2000:]}")
     hit = re.search(r"Total analysis time \(seconds\) = ([0-9.eE+-]+)", m["stdout"] + m["stderr"])
     m["analysis"] = float(hit.group(1)) if hit else None
+    if ref is not None and not m["timed_out"] and (d / "out.raw").exists():
+        t, ys = accuracy.spice_signals(d / "out.raw", (d / netlist).read_text(), ref[1])
+        m["error_mk"] = accuracy.worst(ref, t, ys) * 1e3 if ys else None
     (d / "out.raw").unlink(missing_ok=True)
     return m
 
 
 def case(work: Path, name: str, text: str, steps: int, spice: bool, floors: bool, spice_timeout: float,
-         ivp: bool = True, ivp_timeout: float = 600.0) -> dict:
+         ivp: bool = True, ivp_timeout: float = 600.0, accurate: bool = False) -> dict:
     d = work / name
     d.mkdir(parents=True, exist_ok=True)
     f = d / f"{name}.etn"
     f.write_text(text)
     r: dict = {"case": name, "statements": sum(1 for line in text.splitlines() if line.strip())}
     r["check"] = ok(measure(netgen_cmd("check", f.name), d), f"netgen check {name}")
-    r["run"] = ok(measure(netgen_cmd("run", f.name, "--quiet"), d), f"netgen run {name}")
+    r["run"] = ok(measure(netgen_cmd("run", f.name, "--quiet", "--out", "out"), d), f"netgen run {name}")
+    ref = None
+    if accurate:  # netgen's default run against a tight reference (accuracy.py)
+        (d / f"{name}-ref.etn").write_text(accuracy.tight(text))
+        r["reference"] = ok(measure(netgen_cmd("run", f"{name}-ref.etn", "--quiet", "--out", "ref"), d),
+                            f"netgen reference {name}")
+        ref = accuracy.read_csv(d / "ref" / "transient.csv")
+        r["error_mk"] = accuracy.worst(ref, *accuracy.read_csv(d / "out" / "transient.csv")) * 1e3
     ph = ok(measure([sys.executable, "-c", PHASES, f.name, "x0.npy"], d), f"phases {name}")
     r["phases"] = json.loads(ph["stdout"].strip().splitlines()[-1])
     r["unknowns"] = r["phases"]["unknowns"]
@@ -124,9 +145,14 @@ def case(work: Path, name: str, text: str, steps: int, spice: bool, floors: bool
             r[kind] = m
     if spice:
         r["export"] = ok(measure(netgen_cmd("export", f.name, "-o", f"{name}.cir"), d), f"netgen export {name}")
-        (d / f"{name}-defaults.cir").write_text(defaults((d / f"{name}.cir").read_text()))
-        r["spice"] = spice_run(d, f"{name}.cir", spice_timeout)  # the tolerances the netlist states
-        r["spice_defaults"] = spice_run(d, f"{name}-defaults.cir", spice_timeout)
+        stated = (d / f"{name}.cir").read_text()
+        r["spice_settings"] = {}
+        for label, how in SPICE_SETTINGS:
+            path = f"{name}.cir" if how is None else f"{name}-{label.replace(' ', '')}.cir"
+            if how is not None:
+                (d / path).write_text(defaults(stated) if how == "defaults" else reltol(stated, how))
+            r["spice_settings"][label] = spice_run(d, path, spice_timeout, ref)
+        r["spice"], r["spice_defaults"] = r["spice_settings"]["stated"], r["spice_settings"]["defaults"]
     return r
 
 
@@ -151,13 +177,14 @@ def fmt_t(m: dict | None, key="seconds") -> str:
 def table(results: list[dict], plates: dict) -> str:
     head = ("| case | unknowns | check s | run s (MB) | plate run s (MB) | in solver s | one-solve floor s (MB) "
             "| run ÷ floor | in solver ÷ floor | same-method floor s | in solver ÷ same method "
-            "| solve_ivp BDF s (MB) | ngspice, stated tolerances s (MB) | ngspice, defaults s | ngspice defaults ÷ run |")
+            "| netgen's error mK | solve_ivp BDF s (MB) | ngspice, stated tolerances s (MB) [mK] "
+            "| ngspice, reltol 1e-6 s [mK] | ngspice, defaults s [mK] | ngspice within 10 mK ÷ run |")
     rows = [head, "|" + "|".join(["---"] * (head.count("|") - 1)) + "|"]
     for r in results:
         p = plates.get(r["case"])
         beyond = r["phases"]["run"]
         trap, loop, ivp = r.get("trap"), r.get("loop"), r.get("ivp")
-        sp, spd = r.get("spice"), r.get("spice_defaults")
+        sp, settings = r.get("spice"), r.get("spice_settings", {})
         floor = trap["result"]["seconds"] if trap and "result" in trap else None
         cells = [
             r["case"], str(r["unknowns"]), fmt_t(r["check"]),
@@ -169,14 +196,31 @@ def table(results: list[dict], plates: dict) -> str:
             f"{beyond / floor:.2f}" if floor else "-",
             f"{loop['result']['seconds']:.3g}" if loop else "-",
             f"{beyond / loop['result']['seconds']:.2f}" if loop else "-",
+            f"{r['error_mk']:.3g}" if r.get("error_mk") is not None else "-",
             ("> limit" if ivp.get("timed_out") else f"{ivp['result']['seconds']:.3g} ({ivp['peak_mb']:.0f})")
             if ivp else "skipped",
-            f"{fmt_t(sp)} ({sp['peak_mb']:.0f})" if sp else "skipped",
-            fmt_t(spd) if spd else "skipped",
-            (("> " if spd.get("timed_out") else "") + _ratio(spd["seconds"] / r["run"]["seconds"])) if spd else "-",
+            f"{fmt_t(sp)} ({sp['peak_mb']:.0f}){_mk(sp)}" if sp else "skipped",
+            *[f"{fmt_t(m)}{_mk(m)}" if m else "skipped"
+              for m in (settings.get("reltol 1e-6"), settings.get("defaults"))],
+            _within(settings, r["run"]["seconds"]),
         ]
         rows.append("| " + " | ".join(cells) + " |")
     return "\n".join(rows)
+
+
+def _mk(m: dict) -> str:
+    return f" [{m['error_mk']:.3g}]" if m.get("error_mk") is not None else ""
+
+
+def _within(settings: dict, run: float) -> str:
+    """The cheapest of the simulator's settings whose temperatures are within 10 mK of the
+    reference, its CPU time over netgen's run, and which setting it was."""
+    good = [(m["seconds"], label) for label, m in settings.items()
+            if m.get("error_mk") is not None and m["error_mk"] <= 10.0 and not m.get("timed_out")]
+    if not good:
+        return "-"
+    sec, label = min(good)
+    return f"{_ratio(sec / run)} ({label})"
 
 
 def _ratio(v: float) -> str:
@@ -228,6 +272,8 @@ def main(argv=None) -> int:
     ap.add_argument("--nonlinear-spice-max", type=int, default=50, help="largest case with modules given to ngspice")
     ap.add_argument("--spice-timeout", type=float, default=3600.0)
     ap.add_argument("--no-floors", action="store_true")
+    ap.add_argument("--accuracy-max", type=int, default=100,
+                    help="largest size whose runs are compared with a tight reference (tolerance 1e-7)")
     ap.add_argument("--work", type=Path, default=Path("benchmark-work"))
     ap.add_argument("--json", type=Path, default=None, help="also write the measurements here")
     args = ap.parse_args(argv)
@@ -242,7 +288,7 @@ def main(argv=None) -> int:
                          "linearly; at 100² it already takes minutes)")
         print(f"grid {n} x {n} ...", file=sys.stderr, flush=True)
         r = case(work, f"grid{n}", grids.plain(n, args.steps), args.steps, spice, not args.no_floors,
-                 args.spice_timeout, n <= args.ivp_max, args.ivp_timeout)
+                 args.spice_timeout, n <= args.ivp_max, args.ivp_timeout, n <= args.accuracy_max)
         results.append(r)
         plates[r["case"]] = plate_case(work, n, args.steps)
     for n in args.nonlinear:

@@ -20,7 +20,6 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy.optimize import brentq
 
 from netgen.model.errors import SolveError
 from netgen.model.expr import SignalRef, evaluate
@@ -73,6 +72,8 @@ class Watch:
             g0, g1 = f(0.0), f(1.0)
             if not (g0 <= 0.0 < g1):
                 continue
+            from scipy.optimize import brentq  # lazily: a third of a second to import
+
             s = brentq(f, 0.0, 1.0, xtol=1e-12, rtol=4 * np.finfo(float).eps, maxiter=200)
             # Land where the condition holds: on the root or just past it.
             while f(s) <= 0.0 and s < 1.0:

@@ -8,7 +8,6 @@ import re
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from scipy.optimize import minimize_scalar
 
 from lark.exceptions import UnexpectedInput
 
@@ -152,6 +151,8 @@ def best_point(s: Sweep, text, filename, settings, goal: str, column: str) -> di
             row = run_task(Task(-1, text, filename, {**settings, a.name: float(x)}))
             v = row.values.get(column)
             return sign * v if finite(v) else math.inf
+
+        from scipy.optimize import minimize_scalar  # lazily, as everything a plain run does not use
 
         r = minimize_scalar(f, bounds=(lo, hi), method="bounded",
                             options={"xatol": REFINE_TOL * abs(a.high - a.low)})
