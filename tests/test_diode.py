@@ -103,6 +103,22 @@ record I(d)
     assert s["I(d)"] == pytest.approx(i, rel=1e-7)
 
 
+
+def test_a_large_current_in_a_nonlinear_network_converges():
+    """100 V across 1 mOhm beside a reverse-biased diode (which makes the network nonlinear):
+    Ohm's law gives 1e5 A in the resistor, and the diode takes its saturation current, reversed
+    (Shockley, as above). Newton once moved no unknown by more than 100 units an iteration, so
+    60 iterations never reached 1e5 A and the steady state failed."""
+    s = steady("""
+ground g
+source v a g 100 V
+resistor r a g 1 mohm
+diode d g a
+record I(r) I(d)
+""")
+    assert s["I(r)"] == pytest.approx(1e5, rel=1e-12)
+    assert s["I(d)"] == pytest.approx(shockley(-100.0), rel=1e-6)
+
 FREEWHEEL = """
 design "a coil freewheeling through a diode"
 ground g

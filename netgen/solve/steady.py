@@ -27,8 +27,10 @@ def _weights(sys: System, x: np.ndarray) -> np.ndarray:
     return 1e-9 + 1e-9 * np.abs(x)
 
 
-def newton(residual, jacobian, x0, weights, max_iter=MAX_ITER, constant_jacobian=False, limit=None):
+def newton(residual, jacobian, x0, weights, max_iter=MAX_ITER, constant_jacobian=False, limit=None, reach=None):
     """Damped Newton on residual(x) = 0. Returns (x, converged, worst_index).
+
+    `reach(x)` is how far each unknown may move in one iteration (default 100 units for every one).
 
     With `constant_jacobian` (a linear problem) the Jacobian is factorised once and reused.
     `limit(x, x_new)` -> (x_new, limited) is the kinds' limiting of their own unknowns (diode
@@ -49,9 +51,9 @@ def newton(residual, jacobian, x0, weights, max_iter=MAX_ITER, constant_jacobian
             return x, False, worst
         lam = 1.0
         # Temperatures and voltages should not leap in one iteration; scale big steps down.
-        big = np.max(np.abs(dx)) if len(dx) else 0.0
-        if big > 100.0 and not constant_jacobian:
-            lam = 100.0 / big
+        big = (np.max(np.abs(dx) / (100.0 if reach is None else reach(x)))) if len(dx) else 0.0
+        if big > 1.0 and not constant_jacobian:
+            lam = 1.0 / big
         if limit is not None:
             xl, hit = limit(x, x + lam * dx)
             rl = residual(xl) if hit else None
@@ -212,7 +214,12 @@ def _solve_dc(sys: System, t: float, impose: bool, pin: bool, dyn: dict | None =
     w = lambda z: np.concatenate([_weights(sys, z[:nf]), 1e-9 + 1e-9 * np.abs(z[nf:])])
     linear = sys.linear
     lim = (lambda p: p.limit) if sys.limits else (lambda p: None)
-    z, ok, worst = newton(prob.residual, prob.jacobian, z0, w, constant_jacobian=linear, limit=lim(prob))
+    # An iteration may move a temperature by 100 K, anything else by 100 units or its own size
+    # again: a current of 1e5 A is reached in a dozen doublings, not a thousand steps of 100 A.
+    temp = np.concatenate([np.array(sys.kinds)[prob.free] == TEMP, np.zeros(prob.m, dtype=bool)])
+    reach = lambda z: np.where(temp, 100.0, 100.0 + np.abs(z))
+    z, ok, worst = newton(prob.residual, prob.jacobian, z0, w, constant_jacobian=linear, limit=lim(prob),
+                          reach=reach)
     if ok:
         return prob.full(z)
     # Source stepping: scale every source from a tenth up, following the solution.
@@ -220,7 +227,8 @@ def _solve_dc(sys: System, t: float, impose: bool, pin: bool, dyn: dict | None =
     ok = True
     for s in np.linspace(0.1, 1.0, 10):
         prob.scale = s
-        z, ok, worst = newton(prob.residual, prob.jacobian, z, w, constant_jacobian=linear, limit=lim(prob))
+        z, ok, worst = newton(prob.residual, prob.jacobian, z, w, constant_jacobian=linear, limit=lim(prob),
+                              reach=reach)
         if not ok:
             break
     prob.scale = 1.0
@@ -231,7 +239,7 @@ def _solve_dc(sys: System, t: float, impose: bool, pin: bool, dyn: dict | None =
     p = prob
     for gmin in [1e-2, 1e-3, 1e-4, 1e-6, 1e-8, 1e-10, 0.0]:
         p = DCProblem(sys, t, impose, gmin, pin, dyn)
-        z, ok, worst = newton(p.residual, p.jacobian, z, w, constant_jacobian=linear, limit=lim(p))
+        z, ok, worst = newton(p.residual, p.jacobian, z, w, constant_jacobian=linear, limit=lim(p), reach=reach)
         if not ok:
             break
     if ok:
