@@ -159,3 +159,13 @@ def test_crosscheck_of_a_segmented_module(ngspice):
     rep = crosscheck(netgen.load(text), ngspice)
     assert rep.passed, [r for r in rep.rows if not r.passed]
     assert any(r.signal == "T(tec.joint4)" for r in rep.rows)
+
+
+def test_check_tells_the_joints_apart_from_the_users_nodes():
+    """`netgen check` counts a segmented leg's joints among the thermal nodes (they are nodes of
+    the network) and says how many of them are joints: 8 slices make 7."""
+    from netgen.outputs.text import describe
+
+    text = describe(netgen.load(leg("segments 8")))
+    assert "9 thermal, 7 of them joints inside segmented legs" in text
+    assert "joints" not in describe(netgen.load(leg()))

@@ -28,7 +28,11 @@ def describe(d: Design) -> str:
         k = type(e).__name__.lower()
         kinds[k] = kinds.get(k, 0) + 1
     lines = [f"{d.file}: ok" + (f" — {d.title}" if d.title else "")]
-    lines.append(f"  nodes: {len(d.nodes)} ({thermal} thermal, {masses} with heat capacity; {electrical} electrical)")
+    # A segmented leg's joints are nodes of the network, but not ones the user wrote.
+    joints = sum(max((getattr(e, "segments", None) or 1) - 1, 0) for e in d.of_kind(Thermoelectric))
+    inside = f", {joints} of them joints inside segmented legs" if joints else ""
+    lines.append(f"  nodes: {len(d.nodes)} ({thermal} thermal{inside}, {masses} with heat capacity; "
+                 f"{electrical} electrical)")
     lines.append(f"  elements: {len(d.elements)}" + (" (" + ", ".join(f"{v} {k}" for k, v in sorted(kinds.items())) + ")" if kinds else ""))
     an = [type(a).__name__.lower() for a in d.analyses] or ["none (run solves the steady state)"]
     lines.append(f"  analyses: {', '.join(an)}")
