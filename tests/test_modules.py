@@ -9,6 +9,7 @@ import math
 import pytest
 from scipy.optimize import fsolve
 
+import designs
 import netgen
 
 RATED = """
@@ -46,17 +47,9 @@ def test_rated_module_resolves_to_the_ideal_inversion():
 
 def test_cop_at_optimum_current_matches_formula_and_sweep():
     """CHECKS 5: I_opt = S·ΔT/(R(√(1+Z·Tm) − 1)) and COP_max; a sweep of --set runs finds it."""
-    text = """
-let I = 1 A
-fixed cold 280 K
-fixed hot 300 K
-ground g
-source drive p g I
-thermoelectric m pins p g sides cold hot { seebeck 50 mV/K  resistance 2 ohm  conductance 0.5 W/K }
-steady
-record Q(m.a) P(m)
-"""
-    S, R, K, Tc, Th = 0.05, 2.0, 0.5, 280.0, 300.0
+    text = designs.cooler()
+    S, R, K, Tc, Th = (designs.COOLER_S, designs.COOLER_R, designs.COOLER_K, designs.COOLER_TC,
+                       designs.COOLER_TH)
     Z, Tm, dT = S * S / (R * K), 290.0, 20.0
     root = math.sqrt(1 + Z * Tm)
     i_opt = S * dT / (R * (root - 1))
@@ -74,17 +67,8 @@ record Q(m.a) P(m)
 
 def test_generator_matched_load_power():
     """CHECKS 6: open-circuit V = S·ΔT; R_L = R gives P_max = (S·ΔT)²/(4R)."""
-    text = """
-let RL = 1 ohm
-fixed hot 360 K
-fixed cold 300 K
-ground g
-thermoelectric m pins p g sides hot cold { seebeck 40 mV/K  resistance 1.5 ohm  conductance 0.4 W/K }
-resistor load p g RL
-steady
-record P(load) V(p)
-"""
-    S, R, dT = 0.04, 1.5, 60.0
+    text = designs.generator()
+    S, R, dT = designs.GENERATOR_S, designs.GENERATOR_R, designs.GENERATOR_DT
     # With the module's sides as given (A hot, B cold), V(p) − V(g) = I·R + S·(Tb − Ta).
     st = netgen.load(text, {"RL": "1 Gohm"}).run().steady
     assert abs(st["V(p)"]) == pytest.approx(S * dT, rel=1e-6)

@@ -12,21 +12,12 @@ import re
 import numpy as np
 import pytest
 
+import designs
 import netgen
 from netgen.cli import main
 
-GENERATOR = """
-let RL = 1 ohm
-fixed hot 360 K
-fixed cold 300 K
-ground g
-thermoelectric m pins p g sides hot cold { seebeck 40 mV/K  resistance 1.5 ohm  conductance 0.4 W/K }
-resistor load p g RL
-steady
-record P(load)
-expect steady P(load) > 0.9 W
-"""
-S, R, DT = 0.04, 1.5, 60.0
+GENERATOR = designs.generator("record P(load)\nexpect steady P(load) > 0.9 W")
+S, R, DT = designs.GENERATOR_S, designs.GENERATOR_R, designs.GENERATOR_DT
 
 COOLING = """
 let R = 2 K/W spread normal 5 %

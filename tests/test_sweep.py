@@ -10,30 +10,11 @@ import math
 
 import pytest
 
+import designs
 from netgen.cli import main
 
-COOLER = """
-let I = 1 A
-fixed cold 280 K
-fixed hot 300 K
-ground g
-source drive p g I
-thermoelectric m pins p g sides cold hot { seebeck 50 mV/K  resistance 2 ohm  conductance 0.5 W/K }
-steady
-record Q(m.a) P(m)
-expect steady Q(m.a) > 1 W
-"""
-
-GENERATOR = """
-let RL = 1 ohm
-fixed hot 360 K
-fixed cold 300 K
-ground g
-thermoelectric m pins p g sides hot cold { seebeck 40 mV/K  resistance 1.5 ohm  conductance 0.4 W/K }
-resistor load p g RL
-steady
-record P(load) V(p)
-"""
+COOLER = designs.cooler("record Q(m.a) P(m)\nexpect steady Q(m.a) > 1 W")
+GENERATOR = designs.generator()
 
 
 def _write(tmp_path, text, name="design.etn"):
