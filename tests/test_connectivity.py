@@ -1,0 +1,36 @@
+"""The structural checks' connectivity (solve/topology._Connectivity, a union-find) gives the
+components networkx gives (an independent library: `Graph` and `connected_components`), the
+same sets in the same order, on random graphs with isolated nodes, self-loops, repeated edges
+and nodes first met on an edge."""
+from __future__ import annotations
+
+import random
+
+import networkx as nx
+import pytest
+
+from netgen.solve.topology import _Connectivity
+
+
+@pytest.mark.parametrize("seed", range(20))
+def test_components_as_networkx_gives_them(seed):
+    rng = random.Random(seed)
+    n = rng.randint(1, 60)
+    names = [f"n{i}" for i in range(n)]
+    rng.shuffle(names)
+    declared = names[: rng.randint(0, n)]
+    edges = [(rng.choice(names), rng.choice(names)) for _ in range(rng.randint(0, 2 * n))]
+    ours = _Connectivity(declared)
+    ref = nx.Graph()
+    ref.add_nodes_from(declared)
+    for a, b in edges:
+        ours.add_edge(a, b)
+        ref.add_edge(a, b)
+    assert ours.components() == list(nx.connected_components(ref))
+
+
+def test_a_chain_is_one_component():
+    """Can fail: a union-find that lost a join would give more than one."""
+    c = _Connectivity([f"c{i}" for i in range(1000)])
+    c.add_edges_from((f"c{i + 1}", f"c{i}") for i in range(999))
+    assert c.components() == [{f"c{i}" for i in range(1000)}]
