@@ -34,3 +34,19 @@ def test_a_chain_is_one_component():
     c = _Connectivity([f"c{i}" for i in range(1000)])
     c.add_edges_from((f"c{i + 1}", f"c{i}") for i in range(999))
     assert c.components() == [{f"c{i}" for i in range(1000)}]
+
+
+@pytest.mark.parametrize("seed", range(20))
+def test_the_loop_rule_as_networkx_judges_it(seed):
+    """The check for loops of voltage-defining branches: an edge closes a loop where networkx
+    finds its ends already joined (has_edge or has_path), and only then."""
+    rng = random.Random(seed)
+    names = [f"n{i}" for i in range(rng.randint(1, 12))]
+    ref, ours = nx.Graph(), _Connectivity(())
+    for _ in range(rng.randint(0, 30)):
+        a, b = rng.choice(names), rng.choice(names)
+        loop = a == b or ref.has_edge(a, b) or (a in ref and b in ref and nx.has_path(ref, a, b))
+        assert (a == b or ours.joined(a, b)) == loop
+        if not loop:
+            ref.add_edge(a, b)
+            ours.add_edge(a, b)

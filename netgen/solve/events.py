@@ -20,7 +20,6 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy.optimize import brentq
 
 from netgen.model.errors import SolveError
 from netgen.model.expr import SignalRef, evaluate
@@ -67,6 +66,8 @@ class Watch:
     def locate(self, states, t, h, x, y1, x_new, gamma) -> tuple[float, int] | None:
         """The earliest event in the step from t to t + h, on the quadratic through the states
         at t, t + γh and t + h: (time, switch) or None."""
+        from scipy.optimize import brentq  # here: scipy.optimize is a third of a run's imports, and few runs need it
+
         best = None
         for k in self.which:
             f = lambda s: self._at(k, states[k], s, t, h, x, y1, x_new, gamma)
