@@ -1,8 +1,6 @@
 """The networkx graph of both domains and the structural checks that name nodes and elements."""
 from __future__ import annotations
 
-from collections import Counter
-
 import numpy as np
 
 from netgen.elements import THERMAL_REF, Fixed
@@ -246,18 +244,19 @@ def _cold_reservoirs(d: Design, samples: int = 1000) -> list[NetgenError]:
 
 
 def unused_warnings(d: Design) -> list[str]:
-    """Nodes with a single connection: legal, but often a typo."""
-    degree: Counter = Counter()
-    for a, b, _, _ in _branches(d):
-        degree[a] += 1
-        degree[b] += 1
-    out = []
-    for n in d.nodes.values():
-        if n.name in d.grounds or n.capacity is not None:
-            continue
-        if degree[n.name] == 1:
-            out.append(f"{n.loc}: note: node `{n.name}` has one connection")
-    return out
+    """Nodes with a single connection: legal, but often a typo. Grounds and masses are never
+    named, so only the other nodes' connections are counted (none in a mesh of masses but its
+    reservoirs), and a mass's own branch to the reference joins no such node."""
+    degree = {n.name: 0 for n in d.nodes.values() if n.name not in d.grounds and n.capacity is None}
+    if not degree:
+        return []
+    for e in d.elements:
+        for a, b, _ in e.branches():
+            if a in degree:
+                degree[a] += 1
+            if b in degree:
+                degree[b] += 1
+    return [f"{n.loc}: note: node `{n.name}` has one connection" for n in d.nodes.values() if degree.get(n.name) == 1]
 
 
 __all__ = ["graph", "check_design", "unused_warnings", "THERMAL_REF"]
