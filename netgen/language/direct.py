@@ -2,13 +2,14 @@
 
 A mesh written out as statements is almost all `mass NAME VALUE start VALUE` and
 `link NAME A B VALUE` lines whose values are numbers with units, and most of them repeat one
-value text (`2 W/K`, read once: expressions.read_quantity keeps it). Building lark's tree for
-each such line and then reading the tree back took two thirds of the reading. Here the line's
-match (plain_lines.LineReader) is read directly, but only in the common case: a value that is
-a quantity of the right kind, finite and positive; names not already taken or used in the
-other domain; room under the statement limit. Anything else returns False before changing
-anything, and the line is read through its tree as before, so every message, location and
-result is the tree reader's own (tests/test_fastpaths.py compares the two on every line).
+value text (`2 W/K`: read and judged once per kind here, as a link's conductance, a capacity or
+a start temperature). Building lark's tree for each such line and then reading the tree back
+took two thirds of the reading. Here the line's match (plain_lines.LineReader, the one the
+parse found) is read directly, but only in the common case: a value that is a quantity of the
+right kind, finite and positive; names not already taken or used in the other domain; room
+under the statement limit. Anything else returns False before changing anything, and the line
+is read through its tree as before, so every message, location and result is the tree
+reader's own (tests/test_direct.py compares the two).
 """
 from __future__ import annotations
 

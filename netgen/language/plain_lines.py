@@ -209,8 +209,8 @@ class Statements(Sequence):
 
     def raw(self):
         """The items as kept, for a reader that takes plain lines without trees
-        (language/direct.py): (lark's tree, None), and (a plain line's index, its text, its
-        match), the match found while parsing and dropped here once handed out, so a mesh's
+        (language/direct.py): (lark's tree, None, None), and (a plain line's index, its text,
+        its match), the match found while parsing and dropped here once handed out, so a mesh's
         matches do not all live on beside the Design being built from them."""
         matches, lines, match = self.matches, self.lines, self.reader.match
         for k, item in enumerate(self.items):
