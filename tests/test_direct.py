@@ -28,6 +28,12 @@ CASES = {
     "electrical node": "ground g\nresistor r a g 1 ohm\nsource v a g 1 V\nmass a 1 J/K\nlink l a g 1 W/K\n",
     "node then mass": "fixed s 300 K\nlink l a s 1 W/K\nmass a 1 J/K start 20 degC\n",
     "mass start in kelvin of a temperature unit": "fixed s 300 K\nmass a 1 J/K start 1 W\nlink l a s 1 W/K\n",
+    "one node at both ends": "fixed s 300 K\nmass a 1 J/K\nlink l a a 1 W/K\nlink m a s 1 W/K\n",
+    "new node at both ends": "fixed s 300 K\nlink l b b 1 W/K\nmass a 1 J/K\nlink m a s 1 W/K\n",
+    "value texts kept by kind": "fixed s 300 K\nmass a 2 J/K\nmass b 2 W/K\nlink l a b 2 J/K\nlink m a s 2 W/K\n"
+                                "mass c 2 J/K start 2 J/K\nlink n c s 2 K/W\nmass d 1 J/K start 300 K\n"
+                                "link o d s 300 K\n",
+    "indented and tabbed": "fixed s 300 K\n  mass a 1 J/K\nlink\tl a s 1 W/K\n\tlink m a s 2 W/K # note\n",
 }
 
 
@@ -60,3 +66,14 @@ def test_the_direct_reader_is_used_on_plain_lines(monkeypatch):
     monkeypatch.setattr(direct, "read", lambda *a: taken.append(real(*a)) or taken[-1])
     netgen.load(CASES["plain mesh"])
     assert taken.count(True) == 5
+
+
+def test_plain_lines_read_twice_are_matched_again():
+    """A plain line's match is dropped once handed out (so a mesh's matches do not outlive their
+    reading); a second pass over the statements matches the lines again instead of losing them."""
+    from netgen.language.grammar import parser
+
+    stmts = parser().parse(CASES["plain mesh"]).children
+    first = [(i, line, m.group(0)) for i, line, m in stmts.raw() if m is not None]
+    second = [(i, line, m.group(0)) for i, line, m in stmts.raw() if m is not None]
+    assert len(first) == 7 and first == second  # every line of it is plain

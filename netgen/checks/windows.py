@@ -60,7 +60,7 @@ def _root(t, y, i, lo, hi) -> float:
     if fb == 0 or np.sign(fa) == np.sign(fb):
         # Round-off in the fit: the samples themselves bracket the root; fall back to a line.
         return t[i] + (t[i + 1] - t[i]) * y[i] / (y[i] - y[i + 1])
-    from scipy.optimize import brentq  # lazily: scipy.optimize costs a third of a second to import
+    from scipy.optimize import brentq  # here: scipy.optimize is a third of a run's imports, and few runs need it
 
     return t0 + brentq(p, a, b, xtol=1e-15 * max(1.0, abs(t[i + 1])), rtol=1e-14)
 

@@ -158,9 +158,8 @@ class Elaborator(PartsMixin):
     def statements(self, stmts) -> None:
         """Elaborate statements one by one, collecting located errors (up to MAX_ERRORS)."""
         plain = isinstance(stmts, Statements)
-        for stmt in (stmts.raw() if plain else stmts):
-            if plain and isinstance(stmt, int):  # a plain line: straight into the Design if it can
-                line, m = stmts.line_match(stmt)
+        for stmt, line, m in (stmts.raw() if plain else ((s, None, None) for s in stmts)):
+            if m is not None:  # a plain line: straight into the Design if it can
                 if direct.read(self, line, m, stmt + 1):
                     continue
                 stmt = stmts.tree_at(stmt)

@@ -57,6 +57,9 @@ class LineReader:
                 pat += rf"(?:[ \t]+(?P<sk>start)[ \t]+{start_value})?"
             self.patterns[kw] = pat + tail
         self.res: dict = {}  # compiled when a keyword is first met: each costs ~4 ms of start-up
+        # keyword → (its compiled pattern, its (value group, quantity group) pairs); by keyword,
+        # since hashing a compiled pattern hashes all its code
+        self.compiled: dict = {}
         self.first_word = re.compile(r"[ \t]*([a-z]+)")
         self.agree: dict[str, bool] = {}  # rest of a line from a quantity → lark would split it there too
 
@@ -64,25 +67,29 @@ class LineReader:
         rx = self.res.get(kw)
         if rx is None and kw in self.patterns:
             rx = self.res[kw] = re.compile(self.patterns[kw])
+            self.compiled[kw] = rx, [(g, q) for g, q in (("v", "vq"), ("s", "sq")) if g in rx.groupindex]
         return rx
 
     # ---- one line ---------------------------------------------------------------------
     def match(self, line: str):
         """The match of a plain line, or None when lark must read it."""
-        w = self.first_word.match(line)
-        if w is None:
-            return None
-        rx = self.res.get(w.group(1)) or self._pattern(w.group(1))
-        if rx is None:
-            return None
+        # A line that starts with its keyword and a space (almost all of a mesh) needs no
+        # regular expression to find the keyword; any other goes through `first_word`.
+        found = self.compiled.get(line.partition(" ")[0])
+        if found is None:
+            w = self.first_word.match(line)
+            if w is None or self._pattern(w.group(1)) is None:
+                return None
+            found = self.compiled[w.group(1)]
+        rx, quantities = found
         m = rx.match(line)
         if m is None:
             return None
         # Lark's lexer takes the first QUANTITY match at each place; the line's split must agree.
         # The answer depends only on the rest of the line, which a mesh repeats (`2 W/K`): kept.
         agree = self.agree
-        for group, q in (("v", "vq"), ("s", "sq")):
-            if group in rx.groupindex and m.group(q) is not None:
+        for group, q in quantities:
+            if m.group(q) is not None:
                 a = m.start(group)
                 rest = line[a:]
                 ok = agree.get(rest)
@@ -135,6 +142,7 @@ class LineReader:
         lines among them become trees only as they are read, so a mesh of a quarter of a
         million lines never has all its trees in memory at once."""
         items: list = []  # a lark tree, or the index of a plain line
+        matches: list = []  # beside each item: a plain line's match (dropped once read), else None
         lines = text.split("\n")
         offsets = array("q")
         depth = 0
@@ -154,15 +162,19 @@ class LineReader:
                 for stmt in tree.children:
                     _shift(stmt, i0, o0)
                     items.append(stmt)
+                    matches.append(None)
 
         match = self.match
         for i, line in enumerate(lines):
             offsets.append(offset)
             nxt = offset + len(line) + 1
             if depth == 0:
-                if match(line) is not None:
-                    flush(offset)
+                m = match(line)
+                if m is not None:
+                    if run_start is not None:
+                        flush(offset)
                     items.append(i)
+                    matches.append(m)
                     offset = nxt
                     continue
                 if _BLANK.fullmatch(line):
@@ -178,15 +190,16 @@ class LineReader:
                     depth = max(0, depth - 1)
             offset = nxt
         flush(len(text))
-        return Tree("start", Statements(self, lines, offsets, items), Meta())
+        return Tree("start", Statements(self, lines, offsets, items, matches), Meta())
 
 
 class Statements(Sequence):
     """The statements of a text in order. A plain line's tree is built each time it is read
     and not kept; lark's trees (for everything else) are kept as they are."""
 
-    def __init__(self, reader: LineReader, lines: list[str], offsets, items: list):
+    def __init__(self, reader: LineReader, lines: list[str], offsets, items: list, matches: list | None = None):
         self.reader, self.lines, self.offsets, self.items = reader, lines, offsets, items
+        self.matches = matches if matches is not None else [None] * len(items)
 
     def _tree(self, item):
         if not isinstance(item, int):
@@ -195,9 +208,18 @@ class Statements(Sequence):
         return self.reader.tree(self.reader.match(line), item + 1, self.offsets[item])
 
     def raw(self):
-        """The items as kept: lark's trees, and the indices of plain lines (read by `line_match`
-        and `tree_at`), for a reader that takes plain lines without trees (language/direct.py)."""
-        return iter(self.items)
+        """The items as kept, for a reader that takes plain lines without trees
+        (language/direct.py): (lark's tree, None, None), and (a plain line's index, its text,
+        its match), the match found while parsing and dropped here once handed out, so a mesh's
+        matches do not all live on beside the Design being built from them."""
+        matches, lines, match = self.matches, self.lines, self.reader.match
+        for k, item in enumerate(self.items):
+            if isinstance(item, int):
+                m, matches[k] = matches[k], None
+                line = lines[item]
+                yield item, line, m if m is not None else match(line)  # read a second time: matched again
+            else:
+                yield item, None, None
 
     def line_match(self, i: int):
         line = self.lines[i]

@@ -24,6 +24,15 @@ ODD_BREAKS = "\r\x0b\x0c\x1c\x1d\x1e\x85\u2028\u2029"
 _ODD = re.compile(r"\r(?!\n)|[\x0b\x0c\x1c\x1d\x1e\x85\u2028\u2029]")
 _ODD_CHAR = re.compile(f"[{ODD_BREAKS}]")
 _ODD_OR_COMMENT = re.compile(f'"[^"\\n]*"|#|[{ODD_BREAKS}]')
+
+
+def _has_odd(text: str) -> bool:
+    """`_ODD.search(text) is not None`, quickly in the common case: a substring test per
+    character is a fast scan in C, where the pattern's search tried every place in turn (35 ms
+    for a mesh of 30,000 lines)."""
+    return any(c in text for c in ODD_BREAKS) and _ODD.search(text) is not None
+
+
 _NAMES = {
     "\r": r"a carriage return (\r) that is not followed by a newline",
     "\x0b": r"a vertical tab (\x0b)",
@@ -113,7 +122,7 @@ def split_lines(text: str) -> list[str]:
         lines.pop()
     if "\r" in text:
         lines = [ln[:-1] if ln.endswith("\r") else ln for ln in lines]
-    if _ODD.search(text) is not None:
+    if _has_odd(text):
         lines = [ln.translate(_SHOWN) for ln in lines]
     return lines
 
@@ -121,7 +130,7 @@ def split_lines(text: str) -> list[str]:
 def check_breaks(text: str, file: str, lines: list[str]) -> None:
     """Refuse a line-break character other than `\\n` (or `\\r\\n`) outside a comment, where it
     stands. `lines` are those of `split_lines(text)`, to echo the line."""
-    if _ODD.search(text) is None:  # the common case: one pass in C over the whole text
+    if not _has_odd(text):  # the common case
         return
     pieces = text.split("\n")
     for i, raw in enumerate(pieces):

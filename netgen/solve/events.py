@@ -66,14 +66,14 @@ class Watch:
     def locate(self, states, t, h, x, y1, x_new, gamma) -> tuple[float, int] | None:
         """The earliest event in the step from t to t + h, on the quadratic through the states
         at t, t + γh and t + h: (time, switch) or None."""
+        from scipy.optimize import brentq  # here: scipy.optimize is a third of a run's imports, and few runs need it
+
         best = None
         for k in self.which:
             f = lambda s: self._at(k, states[k], s, t, h, x, y1, x_new, gamma)
             g0, g1 = f(0.0), f(1.0)
             if not (g0 <= 0.0 < g1):
                 continue
-            from scipy.optimize import brentq  # lazily: a third of a second to import
-
             s = brentq(f, 0.0, 1.0, xtol=1e-12, rtol=4 * np.finfo(float).eps, maxiter=200)
             # Land where the condition holds: on the root or just past it.
             while f(s) <= 0.0 and s < 1.0:
