@@ -190,6 +190,8 @@ def _needed(r: Run, x0, texts: list[str]):
     if sys.switches:
         cols.update(np.flatnonzero(np.array(sys.kinds) == "V").tolist())
         cols.update(sys.node_index[a] for s in sys.switches for a in (s.a, s.b) if sys.node_index[a] < sys.n)
+    if len(cols) == sys.n:  # everything is read (every node recorded): nothing to cut
+        return None
     return np.array(sorted(cols), dtype=np.intp)
 
 

@@ -124,3 +124,13 @@ def test_module_signals_are_what_figures_read():
     read = []
     figures(d, lambda text: read.append(text) or 300.0 + len(read))
     assert sorted(set(read)) == sorted(module_signals(d))
+
+
+def test_nothing_is_cut_when_every_unknown_is_read(monkeypatch, cuts):
+    monkeypatch.setattr(kept, "BUDGET", 0)
+    text = ("fixed a 300 K\nmass m 2 J/K start 310 K\nmass n 2 J/K start 310 K\nlink l m a 0.5 W/K\n"
+            "link k n m 1 W/K\ntransient until 4 s\n")
+    netgen.load(text + "record T(m) T(n) T(a) Q(a)\n").run()
+    assert not cuts
+    netgen.load(text + "record T(m)\n").run()
+    assert cuts == [(1, 4)]
