@@ -12,7 +12,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from netgen.checks.audits import energy_audit, entropy_audit, inflow, needed_signals
-from netgen.checks.merit import cautions, figures
+from netgen.checks.merit import cautions, figures, module_signals
 from netgen.checks.switching import opening_cautions
 from netgen.checks.results import Check, Results, evaluate_expectation, refs
 from netgen.elements import Thermoelectric
@@ -21,6 +21,7 @@ from netgen.model.errors import NetgenError
 from netgen.solve.assembly import System, assemble
 from netgen.solve import factor
 from netgen.solve.events import Watch, timeline
+from netgen.solve.kept import NotKept, extremes, traced
 from netgen.solve.modes import forecast, modes
 from netgen.solve.response import response
 from netgen.solve.signals import SignalEval, signal_texts
@@ -41,6 +42,7 @@ class Run:
     res: Results
     progress: object = None
     states: dict[str, tuple] = field(default_factory=dict)
+    keep_all: bool = False  # store every unknown of a long transient (solve/kept.py)
 
     def signal(self, analysis: str, text: str):
         res = self.res
@@ -83,7 +85,9 @@ class TransientAnalysis:
         try:
             watch = Watch(sys, sig)
             x0, dyn, events = self._start(sys, watch)
-            wf = integrate(sys, x0, tr.until, tr.step, tr.tolerance, r.progress, watch, dyn, events)
+            extra = [ref.text for e in r.design.expectations for ref in refs(e.expr)]
+            keep = None if r.keep_all else _needed(r, x0, r.wanted + extra)
+            wf = integrate(sys, x0, tr.until, tr.step, tr.tolerance, r.progress, watch, dyn, events, keep)
             if watch:
                 sys.timeline = timeline(sys, watch.initial(), wf.events)
                 res.events = wf.events
@@ -98,7 +102,6 @@ class TransientAnalysis:
                              "stopped": e.message}
                 e.results = res
             raise
-        extra = [ref.text for e in r.design.expectations for ref in refs(e.expr)]
         r.states["transient"] = (wf.x, wf.xdot, wf.time, wf.left_rows)
         res.time = wf.time
         res.waveforms = {s: sig(s, wf.x, wf.xdot, wf.time, wf.left_rows) for s in dict.fromkeys(r.wanted + extra)}
@@ -177,23 +180,41 @@ class ResponseAnalysis:
         r.res.responses = [response(d, sys, r.sig, x0, a) for a in asked]
 
 
+def _needed(r: Run, x0, texts: list[str]):
+    """The unknowns whose states a long transient keeps (solve/kept.py): those of the signals it
+    reports, its expectations and its figures of merit read, and the node voltages and switch
+    nodes the switching cautions read; None (all of them) when it has an audit, which weighs
+    every mass's heat at every point."""
+    d, sys = r.design, r.sys
+    if d.audits:
+        return None
+    cols = traced(r.sig, texts + module_signals(d), x0)
+    if sys.switches:
+        cols.update(np.flatnonzero(np.array(sys.kinds) == "V").tolist())
+        cols.update(sys.node_index[a] for s in sys.switches for a in (s.a, s.b) if sys.node_index[a] < sys.n)
+    if len(cols) == sys.n:  # everything is read (every node recorded): nothing to cut
+        return None
+    return np.array(sorted(cols), dtype=np.intp)
+
+
 # In the order they run: modes and responses linearise about what the others found.
 ANALYSES = (SteadyAnalysis(), TransientAnalysis(), ModesAnalysis(), ResponseAnalysis())
 
 
-def run(d: Design, progress=None) -> Results:
+def run(d: Design, progress=None, keep_all: bool = False) -> Results:
     """Solve every analysis `d` asks for (with none declared, the steady state), then evaluate
-    its expectations, figures of merit, cautions and audits."""
+    its expectations, figures of merit, cautions and audits. A long transient keeps the states of
+    only the unknowns these read, unless `keep_all`."""
     # A runaway overflows to inf and NaN; the solvers see those as failed steps and say so in
     # their own words (a SolveError), so numpy's RuntimeWarnings are not printed on the way.
     with np.errstate(all="ignore"):
-        return _run(d, progress)
+        return _run(d, progress, keep_all)
 
 
-def _run(d: Design, progress=None) -> Results:
+def _run(d: Design, progress=None, keep_all: bool = False) -> Results:
     sys = assemble(d)
     wanted = signal_texts(d)
-    r = Run(d, sys, SignalEval(d, sys), wanted, Results(design=d, signals=wanted), progress)
+    r = Run(d, sys, SignalEval(d, sys), wanted, Results(design=d, signals=wanted), progress, keep_all=keep_all)
     for analysis in ANALYSES:
         if analysis.wanted(d):
             analysis.solve(r)
@@ -204,12 +225,20 @@ def _run(d: Design, progress=None) -> Results:
         res.figures = figures(d, lambda text: float(np.atleast_1d(r.signal(where, text))[-1]))
         res.figures_at = "steady state" if where == "steady" else "end of the transient"
     if any(isinstance(e, Thermoelectric) for e in d.elements) or d.humidity is not None:
-        res.cautions = cautions(d, lambda text: np.concatenate([np.atleast_1d(r.signal(a, text)) for a in r.states]))
+        res.cautions = cautions(d, lambda text: np.concatenate([_values(r, a, text) for a in r.states]))
     if "transient" in r.states and sys.switches:
         X, _, t, left_rows = r.states["transient"]
         res.cautions += opening_cautions(d, sys, X, t, left_rows, res.events)
     res.checks += [_audit(d, a, r.states.get("transient"), r.sig) for a in d.audits]
     return res
+
+
+def _values(r: Run, analysis: str, text: str) -> np.ndarray:
+    """A signal's solved values, or, of a node a long transient did not keep, its extremes."""
+    try:
+        return np.atleast_1d(r.signal(analysis, text))
+    except NotKept:
+        return extremes(r.states[analysis][0], r.sys, text)
 
 
 def _audit(d: Design, a, transient, sig) -> Check:

@@ -59,8 +59,11 @@ def _text_and_name(path_or_text, who: str) -> tuple[str, str]:
     return text, "<text>"
 
 
-def run(design: Design, progress=None) -> Results:
+def run(design: Design, progress=None, keep_all: bool = False) -> Results:
     """Solve a design's analyses, then its expectations and audits: `netgen.run(netgen.load(path))`.
+
+    A transient whose states would pass 256 MB keeps those of only the unknowns that its
+    records, expectations and figures of merit read; `keep_all=True` keeps every unknown.
 
     Example:
         >>> res = netgen.run(netgen.load("fixed a 300 K\nmass m 2 J/K start 310 K\nlink l m a 0.5 W/K\n"
@@ -71,7 +74,7 @@ def run(design: Design, progress=None) -> Results:
     if not isinstance(design, Design):
         raise NetgenError(f"netgen.run: expected a Design, not {type(design).__name__}", None,
                           'load it first: netgen.run(netgen.load("cooler.etn"))')
-    return _run(design, progress)
+    return _run(design, progress, keep_all)
 
 
 def _exists(path: str) -> bool:

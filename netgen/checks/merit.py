@@ -34,6 +34,12 @@ def dt_max_from_hot(m: Thermoelectric, hot: float) -> float:
     return new
 
 
+def module_signals(d: Design) -> list[str]:
+    """The signals `figures` reads of each module (a long transient keeps only what is read)."""
+    return [text for m in d.of_kind(Thermoelectric) for text in (
+        f"T({m.a})", f"T({m.b})", f"I({m.name})", f"P({m.name})", f"Q({m.name}.a)", f"Q({m.name}.b)")]
+
+
 def figures(d: Design, value) -> list[dict]:
     """`value(signal)` gives a solved scalar (the steady state, or the end of the transient)."""
     out = []
@@ -77,7 +83,8 @@ def figures(d: Design, value) -> list[dict]:
 
 
 def cautions(d: Design, series) -> list[str]:
-    """`series(signal)` gives every solved value of a signal (steady and transient together).
+    """`series(signal)` gives every solved value of a signal (steady and transient together), or
+    of a node's own temperature at least its smallest and largest (a long run keeps only those).
     With a `humidity`, every thermal node colder than the dew point is named (water condenses
     on such a surface); the freezing caution of a module's side stays."""
     notes = []

@@ -198,8 +198,8 @@ class Design:
     # Set by `netgen/__init__.py` to `netgen.run`: the model itself knows no solver.
     runner: ClassVar[Callable | None] = None
 
-    def run(self):
+    def run(self, keep_all: bool = False):
         """Solve this design's analyses and return its Results: the same as `netgen.run(design)`."""
         if Design.runner is None:
             raise RuntimeError("use netgen.run(design), or import netgen.analyses, which hands the model its runner")
-        return Design.runner(self)
+        return Design.runner(self, keep_all=keep_all)

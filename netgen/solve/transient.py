@@ -19,6 +19,7 @@ from netgen.solve.assembly import System
 from netgen.model.errors import SolveError
 from netgen.solve import estimate
 from netgen.solve.factor import lu
+from netgen.solve.kept import States
 
 GAMMA = 2.0 - math.sqrt(2.0)
 D = GAMMA / 2.0  # = (1 − γ)/(2 − γ)
@@ -94,7 +95,7 @@ class _Rows:
 @dataclass
 class Waveforms:
     time: np.ndarray
-    x: np.ndarray  # (len(time), n)
+    x: np.ndarray  # (len(time), n), or a solve/kept.py `Kept` holding only some columns
     xdot: Columns | np.ndarray
     steps: int
     rejected: int
@@ -233,13 +234,16 @@ def _usable_corners(corners: list[float], t_end: float) -> list[float]:
 
 
 def integrate(sys: System, x0: np.ndarray, t_end: float, max_step: float | None = None,
-              tolerance: float | None = None, progress=None, watch=None, dyn=None, events=None) -> Waveforms:
+              tolerance: float | None = None, progress=None, watch=None, dyn=None, events=None,
+              keep=None) -> Waveforms:
     """Integrate C·x' + F(x, t) = 0 from x0 at t = 0 to t_end.
 
     `watch` (solve/events.py) holds the switches that act on conditions, `dyn` their states at
     the start (switch index → closed) and `events` those already taken at the start; each later
     event is located on the step where its condition becomes true, the step is taken again to
-    land on it, and the run restarts there from a consistent state with the switch changed."""
+    land on it, and the run restarts there from a consistent state with the switch changed.
+    `keep` (indices of unknowns) lets a long run store only those columns (solve/kept.py); with
+    None every unknown is stored."""
     dyn = dict(dyn or {})
     events = list(events or [])
     n = sys.n
@@ -263,7 +267,7 @@ def integrate(sys: System, x0: np.ndarray, t_end: float, max_step: float | None 
     stats = {"newton": 0}
 
     capacity = int(min(t_end / hmax, 1e7)) + 3 * len(corners) + 64
-    xs, xds = _Rows(n, capacity), _Rows(len(keep_d), capacity)
+    xs, xds = States(sys.names, capacity, keep), _Rows(len(keep_d), capacity)
     times, left_rows = [0.0], [False]
     xs.append(x0)
     xds.append(np.zeros(len(keep_d)))
@@ -456,7 +460,7 @@ def _partial(times, xs, xds, keep_d, steps, rejected, fac, t, why, sys=None, x=N
         hint or "look for a switch or source jump into a capacitor or inductor with no resistance, "
         "a module driven far past its limits, or loosen `tolerance`",
     )
-    n = xs.buf.shape[1]
+    n = xs.n
     err.partial = Waveforms(np.array(times), xs.array(), Columns(xds.array(), keep_d, n),
                             steps, rejected, fac.count, left_rows=np.zeros(len(times), dtype=bool),
                             partial=True, message=err.message, solves=fac.solves)
