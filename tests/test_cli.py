@@ -72,6 +72,8 @@ def test_check_prints_counts(netgen):
     r = netgen("check", COOLER)
     assert r.returncode == 0, r.stderr
     assert "nodes: 6" in r.stdout and "elements: 6" in r.stdout
+    # The kinds in the user's words, not the class names ("currentsource").
+    assert "(1 current source, 1 fixed, 1 heat, 1 link, 1 resistor, 1 thermoelectric)" in r.stdout
 
 
 def test_run_writes_csv_and_summary(netgen, tmp_path):

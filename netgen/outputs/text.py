@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import math
+import re
 import sys
 import time
 from pathlib import Path
@@ -25,7 +26,7 @@ def describe(d: Design) -> str:
     masses = sum(1 for n in d.nodes.values() if n.capacity is not None)
     kinds: dict[str, int] = {}
     for e in d.elements:
-        k = type(e).__name__.lower()
+        k = re.sub(r"(?<=[a-z])(?=[A-Z])", " ", type(e).__name__).lower()  # CurrentSource: current source
         kinds[k] = kinds.get(k, 0) + 1
     lines = [f"{d.file}: ok" + (f" — {d.title}" if d.title else "")]
     # A segmented leg's joints are nodes of the network, but not ones the user wrote.
