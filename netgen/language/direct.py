@@ -61,6 +61,9 @@ _NOT_KEPT = object()
 
 def _kept(cache: dict, text: str, judge):
     """judge(text), kept by value text: a mesh's few value texts are read and judged once each."""
+    value = cache.get(text, _NOT_KEPT)
+    if value is not _NOT_KEPT:
+        return value
     if len(cache) >= _MAX_KEPT:
         cache.clear()
     value = cache[text] = judge(text)
@@ -79,9 +82,7 @@ def read(r, line: str, m, lineno: int) -> bool:
         n0, n1, n2, v, vq = m.group("n0", "n1", "n2", "v", "vq")
         if vq is None:  # a parameter name: read through the tree
             return False
-        g = _LINKS.get(v, _NOT_KEPT)
-        if g is _NOT_KEPT:
-            g = _kept(_LINKS, v, _conductance)
+        g = _kept(_LINKS, v, _conductance)
         if g is None:
             return False
         name = prefix + n0
@@ -108,18 +109,14 @@ def read(r, line: str, m, lineno: int) -> bool:
             return False
         if vq is None:
             return False
-        cap = _CAPACITIES.get(v, _NOT_KEPT)
-        if cap is _NOT_KEPT:
-            cap = _kept(_CAPACITIES, v, _capacity)
+        cap = _kept(_CAPACITIES, v, _capacity)
         if cap is None:
             return False
         start = None
         if sk is not None:
             if sq is None:
                 return False
-            start = _STARTS.get(s, _NOT_KEPT)
-            if start is _NOT_KEPT:
-                start = _kept(_STARTS, s, _start)
+            start = _kept(_STARTS, s, _start)
             if start is None:
                 return False
         r.size += 1
