@@ -115,7 +115,8 @@ def sweep(design, vary: Mapping, *, log=(), best: tuple[str, str] | None = None,
         >>> table["COP(tec)"].max()
     """
     from netgen.studies.executors import executor
-    from netgen.studies.runner import jsonable, table
+    from netgen.model.jsonsafe import jsonable
+    from netgen.studies.runner import table
     from netgen.studies.sweep import read_axes, run_sweep
     from netgen.studies.tables import frame
 
@@ -159,7 +160,8 @@ def tolerance(design, runs: int, *, seed: int = 0, overrides: Mapping | None = N
         >>> runs.attrs["yield"][0]["yield"]
     """
     from netgen.studies.executors import executor
-    from netgen.studies.runner import jsonable, table
+    from netgen.model.jsonsafe import jsonable
+    from netgen.studies.runner import table
     from netgen.studies.tables import frame
     from netgen.studies.tolerance import run_tolerance
 

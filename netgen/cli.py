@@ -243,7 +243,8 @@ def _study_end(args, name: str, out: Path, outcome, files: dict, doc: dict, cols
 
 
 def cmd_sweep(args) -> int:
-    from netgen.studies.runner import csv_text, jsonable, table
+    from netgen.model.jsonsafe import jsonable
+    from netgen.studies.runner import csv_text, table
     from netgen.studies.sweep import best_line, read_axes, run_sweep
 
     out, settings, text, ex, progress = _study_start(args, "sweep")
@@ -275,7 +276,8 @@ def cmd_sweep(args) -> int:
 
 def cmd_tolerance(args) -> int:
     from netgen.outputs.study_text import stats_table, yield_lines
-    from netgen.studies.runner import csv_text, jsonable, table
+    from netgen.model.jsonsafe import jsonable
+    from netgen.studies.runner import csv_text, table
     from netgen.studies.tolerance import run_tolerance
 
     out, settings, text, ex, progress = _study_start(args, "tolerance")

@@ -4,7 +4,6 @@ from __future__ import annotations
 import csv
 import io
 import json
-import math
 import os
 import shutil
 import tempfile
@@ -17,6 +16,7 @@ from netgen.checks.dewpoint import dew_point
 from netgen.checks.results import Results
 from netgen.model.design import Design
 from netgen.model.errors import NetgenError
+from netgen.model.jsonsafe import jsonable
 from netgen.solve.assembly import assemble
 
 
@@ -211,17 +211,6 @@ def summary(res: Results) -> dict:
     return out
 
 
-def _strict(value):
-    """JSON has no NaN or infinity: those become null."""
-    if isinstance(value, float) and not math.isfinite(value):
-        return None
-    if isinstance(value, dict):
-        return {k: _strict(v) for k, v in value.items()}
-    if isinstance(value, (list, tuple)):
-        return [_strict(v) for v in value]
-    return value
-
-
 def transient_csv(res: Results) -> str:
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\n")
@@ -254,7 +243,7 @@ def write_outputs(res: Results, out_dir: Path) -> list[Path]:
     if res.responses:
         files[out_dir / "response.csv"] = response_csv(res)
     p = out_dir / ("summary.partial.json" if res.stats.get("partial") else "summary.json")
-    files[p] = json.dumps(_strict(summary(res)), indent=2, allow_nan=False) + "\n"
+    files[p] = json.dumps(jsonable(summary(res)), indent=2, allow_nan=False) + "\n"
     write_set(files)
     return list(files)
 

@@ -5,11 +5,12 @@ from __future__ import annotations
 import json
 
 from netgen.model.design import Design, Modes, Steady, Transient
-from netgen.outputs.files import _strict, summary
+from netgen.model.jsonsafe import jsonable
+from netgen.outputs.files import summary
 
 
 def dumps(doc: dict) -> str:
-    return json.dumps(_strict(doc), indent=1, allow_nan=False)
+    return json.dumps(jsonable(doc), indent=1, allow_nan=False)
 
 
 def design_document(d: Design) -> dict:

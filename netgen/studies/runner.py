@@ -10,6 +10,7 @@ from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
 
+from netgen.model.jsonsafe import jsonable
 from netgen.studies.columns import ERROR, Row, Task, union
 
 Progress = Callable[[int, int, int], None]  # (finished, total, failed)
@@ -64,17 +65,6 @@ def execute(tasks: list[Task], ex, lead: Callable[[int], dict], progress: Progre
         if f is not None:
             f.close()
     return out
-
-
-def jsonable(value):
-    """NaN and infinities as null: JSON has no such numbers."""
-    if isinstance(value, float) and not math.isfinite(value):
-        return None
-    if isinstance(value, dict):
-        return {k: jsonable(v) for k, v in value.items()}
-    if isinstance(value, (list, tuple)):
-        return [jsonable(v) for v in value]
-    return value
 
 
 def table(out: Outcome, lead: Callable[[int], dict]) -> tuple[list[str], list[dict]]:
