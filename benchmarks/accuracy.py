@@ -37,10 +37,10 @@ def worst(ref: tuple[np.ndarray, dict], t: np.ndarray, signals: dict[str, np.nda
 
     tr, ys = ref
     keep = (t >= SKIP) & (t <= tr[-1])
+    _, first = np.unique(tr, return_index=True)  # a corner's left and right limits share a time
     out = 0.0
     for name, y in signals.items():
         if name in ys and name.startswith("T("):
-            _, first = np.unique(tr, return_index=True)  # a corner's left and right limits share a time
             f = PchipInterpolator(tr[first], ys[name][first])
             out = max(out, float(np.max(np.abs(f(t[keep]) - y[keep]))))
     return out

@@ -30,7 +30,7 @@ def describe(d: Design) -> str:
         kinds[k] = kinds.get(k, 0) + 1
     lines = [f"{d.file}: ok" + (f" — {d.title}" if d.title else "")]
     # A segmented leg's joints are nodes of the network, but not ones the user wrote.
-    joints = sum(max((getattr(e, "segments", None) or 1) - 1, 0) for e in d.of_kind(Thermoelectric))
+    joints = sum(e.segments - 1 for e in d.of_kind(Thermoelectric))
     inside = f", {joints} of them joints inside segmented legs" if joints else ""
     lines.append(f"  nodes: {len(d.nodes)} ({thermal} thermal{inside}, {masses} with heat capacity; "
                  f"{electrical} electrical)")
